@@ -1,0 +1,1034 @@
+//! The solve: for each run, the stock volumes that the glassware on the bench can actually
+//! deliver and that come closest to the target final concentrations.
+//!
+//! Each run is its own small mixed-integer linear program (volumes in mL inside the model):
+//!
+//! * every varied stock is delivered by at most one of its allowed devices: an adjustable
+//!   device delivers a whole number of steps inside its range, volumetric pipets deliver a
+//!   combination of fills (integer variables, with a binary per choice);
+//! * the volumes add up exactly to the total; water is the make-up and is itself deliverable;
+//! * the timing stock and fixed additions (indicator) have the same volume in every run;
+//! * the objective is lexicographic: first the largest relative deviation of any target (and the
+//!   held ionic strength), then the sum of all deviations, then a tiny preference for the more
+//!   precise kind of glassware.
+//!
+//! Before the integer model, a continuous model of the same run checks that the targets are
+//! reachable at all; when they are not, the reason is stated in the user's terms.
+
+use crate::device::{find_delivery, Delivery, Device};
+use crate::error::{Error, Result};
+use crate::spec::{IonicTarget, Run, Spec};
+use crate::units;
+use good_lp::{
+    microlp, variable, Expression, ProblemVariables, ResolutionError, Solution as _, SolverModel,
+    Variable, WithTimeLimit,
+};
+use std::collections::HashMap;
+use std::ops::Range;
+
+/// Safety net against a runaway branch-and-bound; a normal run solves in milliseconds.
+const TIME_LIMIT_S: f64 = 30.0;
+
+/// One addition to a run: a stock (or water, `stock == None`), its volume and how to deliver it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Addition {
+    pub stock: Option<usize>,
+    /// L
+    pub volume: f64,
+    pub delivery: Delivery,
+}
+
+/// A quantity the solve aims at in a run: a species' final concentration or the ionic strength.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Goal {
+    /// Species name, or `ionic strength`.
+    pub label: String,
+    /// mol/L
+    pub target: f64,
+    /// mol/L as delivered
+    pub achieved: f64,
+    /// (achieved − target) / target
+    pub deviation: f64,
+}
+
+/// A reason to look twice at a run; machine-readable code plus text.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Flag {
+    pub code: &'static str,
+    pub message: String,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct RunSolution {
+    /// Every stock used anywhere in the plan, in spec order, then water.
+    pub additions: Vec<Addition>,
+    pub goals: Vec<Goal>,
+    /// All species in the run, in order of first appearance in the stocks (mol/L).
+    pub concentrations: Vec<(String, f64)>,
+    /// mol/L, ½ Σ cᵢ zᵢ²
+    pub ionic_strength: f64,
+    /// The earlier run with identical targets whose recipe this one reuses.
+    pub same_as: Option<usize>,
+    pub flags: Vec<Flag>,
+}
+
+impl RunSolution {
+    pub fn water(&self) -> &Addition {
+        self.additions.last().expect("water is always the last addition")
+    }
+
+    pub fn volume_of(&self, stock: usize) -> f64 {
+        self.additions
+            .iter()
+            .find(|a| a.stock == Some(stock))
+            .map_or(0.0, |a| a.volume)
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Solution {
+    /// Stocks that appear in at least one run, in spec order.
+    pub used_stocks: Vec<usize>,
+    /// The ionic strength held in every run (mol/L), when one is held.
+    pub ionic_target: Option<f64>,
+    pub runs: Vec<RunSolution>,
+}
+
+/// Fixed parts of every run: the timing stock and fixed additions.
+struct Constant {
+    additions: Vec<Addition>,
+    volume: f64,
+}
+
+/// Solve every run of the plan.
+pub fn solve(spec: &Spec) -> Result<Solution> {
+    let constant = constant_additions(spec)?;
+    let free = spec.total_volume - constant.volume;
+    if free < -1e-12 {
+        return Err(spec.source.error(
+            spec.total_span.clone(),
+            format!(
+                "the timing stock and fixed additions ({} mL) exceed the total volume",
+                units::ml(constant.volume, 2)
+            ),
+            "too small",
+            "raise total_volume, or use a more concentrated timing stock",
+        ));
+    }
+
+    let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
+        None => None,
+        Some(IonicTarget::Value(v)) => Some(v),
+        Some(IonicTarget::Max) => {
+            // First pass without the salt; hold every run at the largest value found.
+            let mut highest: f64 = 0.0;
+            for (i, run) in spec.runs.iter().enumerate() {
+                let s = solve_run(spec, i, run, &constant, None)?;
+                highest = highest.max(s.ionic_strength);
+            }
+            Some(highest)
+        }
+    };
+
+    let mut runs: Vec<RunSolution> = Vec::with_capacity(spec.runs.len());
+    let mut seen: HashMap<Vec<(String, u64)>, usize> = HashMap::new();
+    for (i, run) in spec.runs.iter().enumerate() {
+        let mut key: Vec<(String, u64)> = run
+            .targets
+            .iter()
+            .map(|t| (t.species.clone(), t.concentration.to_bits()))
+            .collect();
+        key.sort();
+        if let Some(&first) = seen.get(&key) {
+            let mut copy = runs[first].clone();
+            copy.same_as = Some(first);
+            runs.push(copy);
+            continue;
+        }
+        seen.insert(key, i);
+        runs.push(solve_run(spec, i, run, &constant, ionic_target)?);
+    }
+
+    // Keep only stocks used somewhere; every run lists the same ones, in spec order.
+    let used_stocks: Vec<usize> = (0..spec.stocks.len())
+        .filter(|&s| runs.iter().any(|r| r.volume_of(s) > 0.0))
+        .collect();
+    for r in &mut runs {
+        r.additions
+            .retain(|a| a.stock.is_none_or(|s| used_stocks.contains(&s)));
+    }
+    Ok(Solution {
+        used_stocks,
+        ionic_target,
+        runs,
+    })
+}
+
+fn constant_additions(spec: &Spec) -> Result<Constant> {
+    let mut additions = Vec::new();
+    let t = &spec.timing;
+    let stock = &spec.stocks[t.stock];
+    let c_stock = stock.concentration_of(&t.species);
+    let v_timing = t.concentration * spec.total_volume / c_stock;
+    if v_timing > spec.total_volume {
+        return Err(spec.source.error(
+            t.span.clone(),
+            format!(
+                "{} {} needs {} mL of '{}', more than the whole {} mL run",
+                t.species,
+                units::concentration(t.concentration),
+                units::ml(v_timing, 2),
+                stock.name,
+                units::ml(spec.total_volume, 2)
+            ),
+            "too concentrated for this stock",
+            "use a more concentrated timing stock or a lower timing concentration",
+        ));
+    }
+    let delivery = find_delivery(v_timing, &stock.devices, &spec.devices).ok_or_else(|| {
+        let (below, above) = nearest_deliverable(v_timing, &stock.devices, &spec.devices);
+        let mut options = Vec::new();
+        for v in [below, above].into_iter().flatten() {
+            options.push(format!(
+                "concentration = \"{}\" ({} mL)",
+                units::concentration(v * c_stock / spec.total_volume),
+                trim_ml(v)
+            ));
+        }
+        let help = if options.is_empty() {
+            format!("allow a device for '{}' that can deliver this volume", stock.name)
+        } else {
+            format!(
+                "the timing volume must be the same deliverable volume in every run; nearest: {}",
+                options.join(" or ")
+            )
+        };
+        spec.source.error(
+            t.span.clone(),
+            format!(
+                "no allowed device delivers {} mL of '{}', the volume that gives {} {}",
+                trim_ml(v_timing),
+                stock.name,
+                t.species,
+                units::concentration(t.concentration)
+            ),
+            "not deliverable",
+            help,
+        )
+    })?;
+    additions.push(Addition {
+        stock: Some(t.stock),
+        volume: v_timing,
+        delivery,
+    });
+    for (i, s) in spec.stocks.iter().enumerate() {
+        let Some(v) = s.fixed_volume else { continue };
+        let delivery = find_delivery(v, &s.devices, &spec.devices).ok_or_else(|| {
+            spec.source.error(
+                s.name_span.clone(),
+                format!(
+                    "no allowed device delivers the fixed {} mL of '{}'",
+                    trim_ml(v),
+                    s.name
+                ),
+                "not deliverable",
+                "allow a device that delivers this volume, or change fixed_volume",
+            )
+        })?;
+        additions.push(Addition {
+            stock: Some(i),
+            volume: v,
+            delivery,
+        });
+    }
+    let volume = additions.iter().map(|a| a.volume).sum();
+    Ok(Constant { additions, volume })
+}
+
+/// A volume in mL without trailing zeros, for messages ("0.37", "3", "12.5").
+fn trim_ml(litres: f64) -> String {
+    let s = format!("{:.4}", litres * 1e3);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    s.to_string()
+}
+
+/// Nearest volumes below and above `v` that the allowed devices deliver in one addition.
+fn nearest_deliverable(v: f64, allowed: &[usize], devices: &[Device]) -> (Option<f64>, Option<f64>) {
+    let mut below: Option<f64> = None;
+    let mut above: Option<f64> = None;
+    for &d in allowed {
+        for x in devices[d].volumes() {
+            if x < v && below.is_none_or(|b| x > b) {
+                below = Some(x);
+            }
+            if x > v && above.is_none_or(|a| x < a) {
+                above = Some(x);
+            }
+        }
+    }
+    (below, above)
+}
+
+/// The linear data of one run: which stocks vary and what each goal needs.
+struct RunModel<'a> {
+    spec: &'a Spec,
+    run: &'a Run,
+    /// Stocks whose volume the solve chooses.
+    vary: Vec<usize>,
+    /// Volume left for varied stocks and water (mL).
+    free_ml: f64,
+    goals: Vec<GoalRow>,
+}
+
+struct GoalRow {
+    label: String,
+    target: f64,
+    /// Per varied stock: amount per mL in mmol (i.e. mol/L).
+    coeffs: Vec<f64>,
+    /// mmol from the constant additions.
+    constant: f64,
+    span: Range<usize>,
+}
+
+impl<'a> RunModel<'a> {
+    fn new(spec: &'a Spec, run: &'a Run, constant: &Constant, ionic: Option<f64>) -> Self {
+        let fixed: Vec<usize> = constant.additions.iter().filter_map(|a| a.stock).collect();
+        let vary: Vec<usize> = (0..spec.stocks.len())
+            .filter(|s| !fixed.contains(s))
+            .filter(|&s| {
+                let st = &spec.stocks[s];
+                let is_salt = ionic.is_some() && spec.ionic.as_ref().is_some_and(|i| i.stock == s);
+                is_salt
+                    || run
+                        .targets
+                        .iter()
+                        .any(|t| st.concentration_of(&t.species) > 0.0)
+            })
+            .collect();
+        let constant_of = |f: &dyn Fn(usize) -> f64| -> f64 {
+            constant
+                .additions
+                .iter()
+                .map(|a| f(a.stock.unwrap_or(usize::MAX)) * a.volume * 1e3)
+                .sum()
+        };
+        let mut goals: Vec<GoalRow> = run
+            .targets
+            .iter()
+            .map(|t| GoalRow {
+                label: t.species.clone(),
+                target: t.concentration,
+                coeffs: vary
+                    .iter()
+                    .map(|&s| spec.stocks[s].concentration_of(&t.species))
+                    .collect(),
+                constant: constant_of(&|s| {
+                    spec.stocks
+                        .get(s)
+                        .map_or(0.0, |st| st.concentration_of(&t.species))
+                }),
+                span: t.span.clone(),
+            })
+            .collect();
+        if let (Some(target), Some(hold)) = (ionic, &spec.ionic) {
+            goals.push(GoalRow {
+                label: "ionic strength".into(),
+                target,
+                coeffs: vary
+                    .iter()
+                    .map(|&s| spec.stocks[s].ionic_strength())
+                    .collect(),
+                constant: constant_of(&|s| spec.stocks.get(s).map_or(0.0, |st| st.ionic_strength())),
+                span: hold.span.clone(),
+            });
+        }
+        RunModel {
+            spec,
+            run,
+            vary,
+            free_ml: (spec.total_volume - constant.volume) * 1e3,
+            goals,
+        }
+    }
+
+    fn total_ml(&self) -> f64 {
+        self.spec.total_volume * 1e3
+    }
+
+    /// Largest volume (mL) the allowed devices of a stock deliver in one addition.
+    fn cap_ml(&self, devices: &[usize]) -> f64 {
+        devices
+            .iter()
+            .map(|&d| self.spec.devices[d].max * 1e3)
+            .fold(0.0, f64::max)
+            .min(self.free_ml)
+    }
+}
+
+/// Variables of one delivery choice inside the integer model.
+struct DeliveryVars {
+    /// (device, count variable)
+    counts: Vec<(usize, Variable)>,
+    volume: Expression,
+    /// (binary, preference weight)
+    choices: Vec<(Variable, f64)>,
+}
+
+fn delivery_vars(
+    vars: &mut ProblemVariables,
+    allowed: &[usize],
+    devices: &[Device],
+    constraints: &mut Vec<good_lp::Constraint>,
+) -> DeliveryVars {
+    let mut counts = Vec::new();
+    let mut volume = Expression::from(0.0);
+    let mut choices = Vec::new();
+    let mut pipet_sum = Expression::from(0.0);
+    let mut pipet_fills = 0.0;
+    for &d in allowed {
+        let dev = &devices[d];
+        let (lo, hi) = dev.count_range();
+        let step_ml = dev.step * 1e3;
+        if dev.is_volumetric() {
+            let n = vars.add(variable().integer().min(0).max(hi as f64));
+            counts.push((d, n));
+            volume += step_ml * n;
+            pipet_sum += n;
+            pipet_fills += hi as f64;
+        } else {
+            if lo > hi {
+                continue;
+            }
+            let n = vars.add(variable().integer().min(0).max(hi as f64));
+            let y = vars.add(variable().binary());
+            constraints.push((n - (lo as f64) * y).geq(0.0));
+            constraints.push((n - (hi as f64) * y).leq(0.0));
+            counts.push((d, n));
+            volume += step_ml * n;
+            choices.push((y, dev.kind.preference()));
+        }
+    }
+    if pipet_fills > 0.0 {
+        let y = vars.add(variable().binary());
+        constraints.push((pipet_sum.clone() - pipet_fills * y).leq(0.0));
+        constraints.push((pipet_sum - y).geq(0.0));
+        choices.push((y, 0.0));
+    }
+    if choices.len() > 1 {
+        let sum: Expression = choices.iter().map(|(y, _)| *y).sum();
+        constraints.push(sum.leq(1.0));
+    }
+    DeliveryVars {
+        counts,
+        volume,
+        choices,
+    }
+}
+
+enum Stage {
+    /// Minimise the largest deviation.
+    MaxDeviation,
+    /// Keep the largest deviation at `z`, then minimise the sum and prefer precise glassware.
+    SumDeviation(f64),
+}
+
+struct IntegerOutcome {
+    additions: Vec<Addition>,
+    max_dev: f64,
+}
+
+fn solve_integer(m: &RunModel, stage: Stage) -> std::result::Result<IntegerOutcome, ResolutionError> {
+    let spec = m.spec;
+    let mut vars = ProblemVariables::new();
+    let mut cons = Vec::new();
+    let stock_vars: Vec<DeliveryVars> = m
+        .vary
+        .iter()
+        .map(|&s| delivery_vars(&mut vars, &spec.stocks[s].devices, &spec.devices, &mut cons))
+        .collect();
+    let water = delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons);
+    let z = vars.add(variable().min(0.0));
+    let mut objective = Expression::from(0.0);
+    let mut sum_dev = Expression::from(0.0);
+    let total = m.total_ml();
+
+    let mut volume_sum = water.volume.clone();
+    for dv in &stock_vars {
+        volume_sum += dv.volume.clone();
+    }
+    cons.push(volume_sum.eq(m.free_ml));
+
+    for g in &m.goals {
+        // relative achieved = (Σ a v + n) / (V T)
+        let scale = 1.0 / (total * g.target);
+        let mut rel = Expression::from(g.constant * scale);
+        for (dv, &a) in stock_vars.iter().zip(&g.coeffs) {
+            if a != 0.0 {
+                rel += dv.volume.clone() * (a * scale);
+            }
+        }
+        cons.push((rel.clone() - 1.0 - z).leq(0.0));
+        cons.push((1.0 - rel.clone() - z).leq(0.0));
+        if let Stage::SumDeviation(_) = stage {
+            let e = vars.add(variable().min(0.0));
+            cons.push((rel.clone() - 1.0 - e).leq(0.0));
+            cons.push((1.0 - rel - e).leq(0.0));
+            sum_dev += e;
+        }
+    }
+    match stage {
+        Stage::MaxDeviation => objective += z,
+        Stage::SumDeviation(zmax) => {
+            cons.push(Expression::from(z).leq(zmax + 1e-9 + zmax * 1e-9));
+            objective += sum_dev;
+            for dv in stock_vars.iter().chain(std::iter::once(&water)) {
+                for (y, pref) in &dv.choices {
+                    objective += (1e-7 * (1.0 + pref)) * *y;
+                }
+            }
+        }
+    }
+    let mut model = vars.minimise(objective).using(microlp).with_time_limit(TIME_LIMIT_S);
+    for c in cons {
+        model = model.with(c);
+    }
+    let sol = model.solve()?;
+
+    let read = |dv: &DeliveryVars| -> Delivery {
+        let parts = dv
+            .counts
+            .iter()
+            .filter_map(|&(d, n)| {
+                let k = sol.value(n).round();
+                (k >= 0.5).then_some((d, k as u32))
+            })
+            .collect();
+        Delivery { parts }
+    };
+    let mut additions = Vec::new();
+    for (dv, &s) in stock_vars.iter().zip(&m.vary) {
+        let delivery = read(dv);
+        additions.push(Addition {
+            stock: Some(s),
+            volume: delivery.volume(&spec.devices),
+            delivery,
+        });
+    }
+    let delivery = read(&water);
+    additions.push(Addition {
+        stock: None,
+        volume: delivery.volume(&spec.devices),
+        delivery,
+    });
+    Ok(IntegerOutcome {
+        additions,
+        max_dev: sol.value(z),
+    })
+}
+
+/// The continuous relaxation: volumes free between 0 and what the devices can hold.
+/// Returns the smallest achievable largest deviation and the ideal volumes (mL) per varied stock.
+fn solve_continuous(m: &RunModel) -> std::result::Result<(f64, Vec<f64>), ResolutionError> {
+    let spec = m.spec;
+    let mut vars = ProblemVariables::new();
+    let vols: Vec<Variable> = m
+        .vary
+        .iter()
+        .map(|&s| vars.add(variable().min(0.0).max(m.cap_ml(&spec.stocks[s].devices))))
+        .collect();
+    let water_cap = m.cap_ml(&spec.water_devices);
+    let z = vars.add(variable().min(0.0));
+    let mut model = vars.minimise(z).using(microlp);
+    let used: Expression = vols.iter().copied().sum();
+    model = model.with(used.clone().leq(m.free_ml));
+    model = model.with((m.free_ml - used).leq(water_cap));
+    let total = m.total_ml();
+    for g in &m.goals {
+        let scale = 1.0 / (total * g.target);
+        let mut rel = Expression::from(g.constant * scale);
+        for (&v, &a) in vols.iter().zip(&g.coeffs) {
+            rel += (a * scale) * v;
+        }
+        model = model.with((rel.clone() - 1.0 - z).leq(0.0));
+        model = model.with((1.0 - rel - z).leq(0.0));
+    }
+    let sol = model.solve()?;
+    Ok((sol.value(z), vols.iter().map(|&v| sol.value(v)).collect()))
+}
+
+fn solve_run(
+    spec: &Spec,
+    index: usize,
+    run: &Run,
+    constant: &Constant,
+    ionic: Option<f64>,
+) -> Result<RunSolution> {
+    let m = RunModel::new(spec, run, constant, ionic);
+    let solver_error = |e: ResolutionError| Error::Solver {
+        run: run.name.clone(),
+        reason: e.to_string(),
+    };
+    let (best, ideal) = solve_continuous(&m).map_err(|e| match e {
+        ResolutionError::Infeasible => water_error(&m),
+        other => solver_error(other),
+    })?;
+    if best > spec.tolerance {
+        return Err(explain_unreachable(&m, best));
+    }
+    let first = match solve_integer(&m, Stage::MaxDeviation) {
+        Ok(o) => o,
+        Err(ResolutionError::Infeasible) => return Err(explain_integer_infeasible(&m, &ideal)),
+        Err(e) => return Err(solver_error(e)),
+    };
+    let outcome = solve_integer(&m, Stage::SumDeviation(first.max_dev)).unwrap_or(first);
+
+    let mut additions = constant.additions.clone();
+    additions.extend(outcome.additions.into_iter().filter(|a| a.stock.is_some()));
+    additions.sort_by_key(|a| a.stock);
+    // Water last; recompute from the delivered volumes so the sum is exact.
+    let water = find_water(&m, &additions)?;
+    additions.push(water);
+
+    let solution = evaluate(spec, run, additions, ionic);
+    let worst = solution
+        .goals
+        .iter()
+        .map(|g| g.deviation.abs())
+        .fold(0.0, f64::max);
+    let mut solution = solution;
+    if worst > spec.tolerance {
+        if let Some(err) = explain_out_of_range(&m, &ideal) {
+            return Err(err);
+        }
+        for g in &solution.goals {
+            if g.deviation.abs() > spec.tolerance {
+                solution.flags.push(Flag {
+                    code: "off_target",
+                    message: format!(
+                        "{} is {:+.2} % from its target (tolerance {} %): the nearest deliverable volumes of its stocks; a finer device or a more dilute stock would help",
+                        g.label,
+                        g.deviation * 100.0,
+                        units::sig3(spec.tolerance * 100.0)
+                    ),
+                });
+            }
+        }
+    }
+    let _ = index;
+    Ok(solution)
+}
+
+/// The water addition that makes the delivered stocks up to the total exactly.
+fn find_water(m: &RunModel, stocks: &[Addition]) -> Result<Addition> {
+    let spec = m.spec;
+    let used: f64 = stocks.iter().map(|a| a.volume).sum();
+    let mut w = spec.total_volume - used;
+    if w.abs() < 1e-12 {
+        w = 0.0;
+    }
+    let delivery = find_delivery(w, &spec.water_devices, &spec.devices).ok_or_else(|| Error::Solver {
+        run: m.run.name.clone(),
+        reason: format!("water {} mL is not deliverable after rounding", trim_ml(w)),
+    })?;
+    Ok(Addition {
+        stock: None,
+        volume: w,
+        delivery,
+    })
+}
+
+/// Achieved concentrations, deviations and ionic strength of a finished recipe.
+pub fn evaluate(spec: &Spec, run: &Run, additions: Vec<Addition>, ionic: Option<f64>) -> RunSolution {
+    let total = spec.total_volume;
+    let mut concentrations: Vec<(String, f64)> = Vec::new();
+    let mut ionic_strength = 0.0;
+    for a in &additions {
+        let Some(s) = a.stock else { continue };
+        let st = &spec.stocks[s];
+        ionic_strength += st.ionic_strength() * a.volume / total;
+        for (sp, c) in &st.contains {
+            let amount = c * a.volume / total;
+            match concentrations.iter_mut().find(|(n, _)| n == sp) {
+                Some(entry) => entry.1 += amount,
+                None => concentrations.push((sp.clone(), amount)),
+            }
+        }
+    }
+    let achieved = |sp: &str| {
+        concentrations
+            .iter()
+            .find(|(n, _)| n == sp)
+            .map_or(0.0, |(_, c)| *c)
+    };
+    let mut goals: Vec<Goal> = run
+        .targets
+        .iter()
+        .map(|t| {
+            let a = achieved(&t.species);
+            Goal {
+                label: t.species.clone(),
+                target: t.concentration,
+                achieved: a,
+                deviation: (a - t.concentration) / t.concentration,
+            }
+        })
+        .collect();
+    if let Some(target) = ionic {
+        goals.push(Goal {
+            label: "ionic strength".into(),
+            target,
+            achieved: ionic_strength,
+            deviation: (ionic_strength - target) / target,
+        });
+    }
+    RunSolution {
+        additions,
+        goals,
+        concentrations,
+        ionic_strength,
+        same_as: None,
+        flags: Vec::new(),
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Explanations, in the user's terms
+// ---------------------------------------------------------------------------------------------
+
+fn water_error(m: &RunModel) -> Error {
+    let spec = m.spec;
+    spec.source.error(
+        m.run.span.clone(),
+        format!(
+            "run '{}': the water devices cannot make the run up to {} mL",
+            m.run.name,
+            units::ml(spec.total_volume, 2)
+        ),
+        "no way to make up the volume",
+        "allow a larger device for water in [water] devices",
+    )
+}
+
+/// The continuous model cannot meet the targets: say which one, and why.
+fn explain_unreachable(m: &RunModel, best: f64) -> Error {
+    let spec = m.spec;
+    let run = &m.run.name;
+    let total = m.total_ml();
+    // 1. A single goal out of reach on its own.
+    for g in &m.goals {
+        // Greedy: fill the free volume with the richest stocks first, each up to its device cap.
+        let mut order: Vec<usize> = (0..m.vary.len()).filter(|&i| g.coeffs[i] > 0.0).collect();
+        order.sort_by(|&a, &b| g.coeffs[b].total_cmp(&g.coeffs[a]));
+        let mut left = m.free_ml;
+        let mut most = g.constant;
+        let mut used_names = Vec::new();
+        let mut limited_by_device = false;
+        for &i in &order {
+            let cap = m.cap_ml(&spec.stocks[m.vary[i]].devices);
+            let take = left.min(cap);
+            if cap < left {
+                limited_by_device = true;
+            }
+            most += take * g.coeffs[i];
+            left -= take;
+            used_names.push((m.vary[i], take));
+            if left <= 0.0 {
+                break;
+            }
+        }
+        let most_c = most / total;
+        let least_c = g.constant / total;
+        let what = if g.label == "ionic strength" {
+            format!("ionic strength {}", units::concentration(g.target))
+        } else {
+            format!("{} {}", g.label, units::concentration(g.target))
+        };
+        if g.target > most_c * (1.0 + spec.tolerance) {
+            let (message, help) = match used_names.as_slice() {
+                [] => (
+                    format!("run '{run}': {what} cannot be reached: no stock that varies holds it"),
+                    "add a stock that holds this species".to_string(),
+                ),
+                [(s, take)] => {
+                    let name = &spec.stocks[*s].name;
+                    let limit = if limited_by_device {
+                        format!("the {} mL its largest allowed device delivers", trim_ml(take * 1e-3))
+                    } else {
+                        format!("the whole {} mL left in the run", trim_ml(m.free_ml * 1e-3))
+                    };
+                    (
+                        format!(
+                            "run '{run}': {what} needs more than {limit} of stock '{name}' (at most {})",
+                            units::concentration(most_c)
+                        ),
+                        if limited_by_device {
+                            "allow a larger device for this stock, use a stronger stock, or lower the target".to_string()
+                        } else {
+                            "use a stronger stock, a smaller total volume, or a lower target".to_string()
+                        },
+                    )
+                }
+                many => (
+                    format!(
+                        "run '{run}': {what} needs more than all of {} together can give (at most {})",
+                        many.iter()
+                            .map(|(s, _)| format!("'{}'", spec.stocks[*s].name))
+                            .collect::<Vec<_>>()
+                            .join(", "),
+                        units::concentration(most_c)
+                    ),
+                    "use a stronger stock, a smaller total volume, or a lower target".to_string(),
+                ),
+            };
+            return spec.source.error(g.span.clone(), message, "out of reach", help);
+        }
+        if g.target < least_c * (1.0 - spec.tolerance) {
+            return spec.source.error(
+                g.span.clone(),
+                format!(
+                    "run '{run}': {what} is below the {} that the timing stock and fixed additions already bring",
+                    units::concentration(least_c)
+                ),
+                "below the floor",
+                "raise the target, or keep this species out of the timing stock and fixed additions",
+            );
+        }
+    }
+    // 2. Each goal alone is reachable, but the volumes needed do not fit together.
+    let mut needed = Vec::new();
+    let mut sum_needed = 0.0;
+    for g in &m.goals {
+        if let Some((i, &a)) = g
+            .coeffs
+            .iter()
+            .enumerate()
+            .filter(|(_, &a)| a > 0.0)
+            .max_by(|x, y| x.1.total_cmp(y.1))
+        {
+            let v = ((g.target * total - g.constant) / a).max(0.0);
+            sum_needed += v;
+            needed.push(format!("{} mL of '{}'", trim_ml(v * 1e-3), spec.stocks[m.vary[i]].name));
+        }
+    }
+    if sum_needed > m.free_ml * (1.0 + spec.tolerance) {
+        return spec.source.error(
+            m.run.span.clone(),
+            format!(
+                "run '{run}': the stocks needed add up to more than the {} mL available: {}",
+                trim_ml(m.free_ml * 1e-3),
+                needed.join(" + ")
+            ),
+            "does not fit",
+            "use stronger stocks, a larger total volume, or lower targets",
+        );
+    }
+    // 3. Stocks that carry several target species in a fixed ratio.
+    spec.source.error(
+        m.run.span.clone(),
+        format!(
+            "run '{run}': the targets cannot all be met together (best largest deviation {:.1} %): the stocks bring these species in fixed ratios",
+            best * 100.0
+        ),
+        "conflicting targets",
+        "add a stock that holds only one of the conflicting species, or change the targets",
+    )
+}
+
+/// An ideal volume no allowed device can deliver: the run cannot be made as specified.
+fn explain_out_of_range(m: &RunModel, ideal: &[f64]) -> Option<Error> {
+    let spec = m.spec;
+    for (i, &v_ml) in ideal.iter().enumerate() {
+        if v_ml <= 1e-9 {
+            continue;
+        }
+        let stock = &spec.stocks[m.vary[i]];
+        let smallest = stock
+            .devices
+            .iter()
+            .map(|&d| (spec.devices[d].min, d))
+            .min_by(|a, b| a.0.total_cmp(&b.0));
+        if let Some((min, d)) = smallest {
+            if v_ml * 1e-3 < min * (1.0 - spec.tolerance) {
+                return Some(spec.source.error(
+                    stock.name_span.clone(),
+                    format!(
+                        "run '{}': no allowed device delivers {} mL of '{}' (the smallest is {} mL with '{}')",
+                        m.run.name,
+                        trim_ml(v_ml * 1e-3),
+                        stock.name,
+                        trim_ml(min),
+                        spec.devices[d].name
+                    ),
+                    "volume too small for its devices",
+                    "allow a smaller device for this stock (devices = [...]), or use a more dilute stock",
+                ));
+            }
+        }
+    }
+    None
+}
+
+/// The integer model has no solution although the continuous one does.
+fn explain_integer_infeasible(m: &RunModel, ideal: &[f64]) -> Error {
+    if let Some(e) = explain_out_of_range(m, ideal) {
+        return e;
+    }
+    let spec = m.spec;
+    let steps: Vec<String> = spec
+        .water_devices
+        .iter()
+        .map(|&d| {
+            let dev = &spec.devices[d];
+            format!("'{}' ({} mL steps)", dev.name, trim_ml(dev.step))
+        })
+        .collect();
+    spec.source.error(
+        spec.total_span.clone(),
+        format!(
+            "run '{}': no combination of deliverable volumes adds up to exactly {} mL",
+            m.run.name,
+            trim_ml(spec.total_volume)
+        ),
+        "cannot be made up exactly",
+        format!(
+            "the fixed additions leave {} mL for stocks and water, and water comes from {}; pick a total and fixed volumes on the devices' graduations",
+            trim_ml(m.free_ml * 1e-3),
+            steps.join(", ")
+        ),
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::error::SpecSource;
+    use approx::assert_relative_eq;
+
+    fn spec(text: &str) -> Spec {
+        crate::spec::load(SpecSource::new("t.toml", text)).unwrap()
+    }
+
+    const BASE: &str = r#"
+[plan]
+title = "dilution check"
+total_volume = "50.0 mL"
+tolerance = "0.5 %"
+
+[timing]
+species = "S2O3^2-"
+concentration = "0.200 mM"
+
+[mixing]
+keep_apart = [["I-", "BrO3-"]]
+
+[[stock]]
+name = "KI 0.0500 M"
+contains = { "I-" = "0.0500 M", "K+" = "0.0500 M" }
+
+[[stock]]
+name = "KBrO3 0.0400 M"
+contains = { "BrO3-" = "0.0400 M", "K+" = "0.0400 M" }
+
+[[stock]]
+name = "thio 2.00 mM"
+contains = { "S2O3^2-" = "2.00 mM", "Na+" = "4.00 mM" }
+
+[[device]]
+name = "50 mL buret"
+kind = "buret"
+capacity = "50 mL"
+graduation = "0.10 mL"
+
+[[run]]
+name = "r1"
+targets = { "I-" = "10.0 mM", "BrO3-" = "8.00 mM" }
+
+[[run]]
+name = "r2"
+targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
+"#;
+
+    #[test]
+    fn single_species_stocks_follow_the_dilution_law() {
+        // M1V1 = M2V2 (common practice): V = C_target · V_total / C_stock.
+        // r1: I- 10.0 mM × 50 mL / 50.0 mM = 10.0 mL; BrO3- 8.00 mM × 50 / 40.0 = 10.0 mL;
+        // thiosulfate 0.200 mM × 50 / 2.00 = 5.00 mL; water 25.0 mL.
+        let s = spec(BASE);
+        let sol = solve(&s).unwrap();
+        let r1 = &sol.runs[0];
+        assert_relative_eq!(r1.volume_of(0), 10.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r1.volume_of(1), 10.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r1.volume_of(2), 5.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r1.water().volume, 25.0e-3, epsilon = 1e-12);
+        let r2 = &sol.runs[1];
+        assert_relative_eq!(r2.volume_of(0), 5.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r2.water().volume, 30.0e-3, epsilon = 1e-12);
+        for g in &r1.goals {
+            assert!(g.deviation.abs() < 1e-9, "{g:?}");
+        }
+        // K+ comes from both KI and KBrO3: (0.0500·10 + 0.0400·10)/50 = 18.0 mM.
+        let k = r1.concentrations.iter().find(|(s, _)| s == "K+").unwrap().1;
+        assert_relative_eq!(k, 0.018, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn multi_species_stock_worked_by_hand() {
+        // A stock holding both H+ and BrO3- (acidified bromate) plus a plain HCl stock.
+        // Targets: BrO3- 4.00 mM, H+ 50.0 mM in 50 mL.
+        // Acidified bromate 0.0400 M BrO3- / 0.100 M H+: V_b = 4.00·50/40.0 = 5.00 mL,
+        // bringing 0.100·5.00/50 = 10.0 mM H+; HCl 0.200 M makes up 40.0 mM: V = 40.0·50/200 = 10.0 mL.
+        let text = BASE
+            .replace(
+                "contains = { \"BrO3-\" = \"0.0400 M\", \"K+\" = \"0.0400 M\" }",
+                "contains = { \"BrO3-\" = \"0.0400 M\", \"K+\" = \"0.0400 M\", \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\" }",
+            )
+            .replace(
+                "[[device]]",
+                "[[stock]]\nname = \"HCl 0.200 M\"\ncontains = { \"H+\" = \"0.200 M\", \"Cl-\" = \"0.200 M\" }\n\n[[device]]",
+            )
+            .replace(
+                "targets = { \"I-\" = \"10.0 mM\", \"BrO3-\" = \"8.00 mM\" }",
+                "targets = { \"I-\" = \"10.0 mM\", \"BrO3-\" = \"4.00 mM\", \"H+\" = \"50.0 mM\" }",
+            )
+            .replace(
+                "targets = { \"I-\" = \"5.00 mM\", \"BrO3-\" = \"8.00 mM\" }",
+                "targets = { \"I-\" = \"5.00 mM\", \"BrO3-\" = \"4.00 mM\", \"H+\" = \"50.0 mM\" }",
+            );
+        let s = spec(&text);
+        let sol = solve(&s).unwrap();
+        let r1 = &sol.runs[0];
+        assert_relative_eq!(r1.volume_of(1), 5.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r1.volume_of(3), 10.0e-3, epsilon = 1e-12);
+        let cl = r1.concentrations.iter().find(|(s, _)| s == "Cl-").unwrap().1;
+        // Cl-: (0.100·5 + 0.200·10)/50 = 50.0 mM
+        assert_relative_eq!(cl, 0.050, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn off_grid_target_is_the_best_deliverable() {
+        // 7.77 mM I- in 50 mL from 50.0 mM needs 7.77 mL; the 0.10 mL buret gives 7.80 mL,
+        // +0.386 % (within 0.5 %), the nearest on its graduation.
+        let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"7.77 mM\"");
+        let sol = solve(&spec(&text)).unwrap();
+        assert_relative_eq!(sol.runs[0].volume_of(0), 7.8e-3, epsilon = 1e-12);
+        assert!(sol.runs[0].flags.is_empty());
+    }
+
+    #[test]
+    fn unreachable_target_names_run_species_and_stock() {
+        let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"60.0 mM\"");
+        let e = solve(&spec(&text)).unwrap_err();
+        let msg = e.message();
+        assert!(msg.contains("run 'r1'"), "{msg}");
+        assert!(msg.contains("I- 60.0 mM"), "{msg}");
+        assert!(msg.contains("KI 0.0500 M"), "{msg}");
+    }
+
+    #[test]
+    fn identical_runs_are_solved_once() {
+        let text = BASE.replace("\"I-\" = \"5.00 mM\"", "\"I-\" = \"10.0 mM\"");
+        let sol = solve(&spec(&text)).unwrap();
+        assert_eq!(sol.runs[1].same_as, Some(0));
+        assert_eq!(sol.runs[1].additions, sol.runs[0].additions);
+    }
+}

@@ -1,0 +1,905 @@
+//! The plan spec: TOML → checked plan. Units are read here, names are resolved here, and every
+//! problem is reported against the spec text with a hint. Nothing later re-reads the TOML.
+
+use crate::device::{Class, Device, DeviceKind};
+use crate::error::{Error, Result, SpecSource};
+use crate::species;
+use crate::units::{self, Kind};
+use serde::de::{MapAccess, Visitor};
+use serde::{Deserialize, Deserializer};
+use std::collections::{BTreeSet, HashMap};
+use std::fmt;
+use std::marker::PhantomData;
+use std::ops::Range;
+use toml::{Spanned, Value};
+
+// ---------------------------------------------------------------------------------------------
+// Raw shape of the TOML file
+// ---------------------------------------------------------------------------------------------
+
+type Q = Spanned<Value>;
+type Name = Spanned<String>;
+
+/// A TOML table read in the order it was written, keys with their spans.
+#[derive(Debug)]
+struct Entries<V>(Vec<(Name, V)>);
+
+impl<'de, V: Deserialize<'de>> Deserialize<'de> for Entries<V> {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        struct V_<V>(PhantomData<V>);
+        impl<'de, V: Deserialize<'de>> Visitor<'de> for V_<V> {
+            type Value = Entries<V>;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a table such as { \"I-\" = \"2.50 mM\" }")
+            }
+            fn visit_map<A: MapAccess<'de>>(
+                self,
+                mut map: A,
+            ) -> std::result::Result<Self::Value, A::Error> {
+                let mut out = Vec::new();
+                while let Some((k, v)) = map.next_entry()? {
+                    out.push((k, v));
+                }
+                Ok(Entries(out))
+            }
+        }
+        d.deserialize_map(V_(PhantomData))
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawSpec {
+    plan: Spanned<RawPlan>,
+    timing: Spanned<RawTiming>,
+    water: Option<RawWater>,
+    mixing: Option<RawMixing>,
+    ionic_strength: Option<Spanned<RawIonic>>,
+    #[serde(default)]
+    stock: Vec<Spanned<RawStock>>,
+    #[serde(default)]
+    device: Vec<Spanned<RawDevice>>,
+    #[serde(default)]
+    run: Vec<Spanned<RawRun>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPlan {
+    title: Name,
+    total_volume: Q,
+    stations: Option<Spanned<i64>>,
+    replicates: Option<Spanned<i64>>,
+    overage: Option<Q>,
+    temperature: Option<Q>,
+    tolerance: Option<Q>,
+    flasks: Option<Vec<Q>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTiming {
+    species: Name,
+    concentration: Q,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawWater {
+    devices: Option<Vec<Name>>,
+    vessel: Option<Name>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawMixing {
+    #[serde(default)]
+    keep_apart: Vec<Spanned<Vec<Name>>>,
+    pour: Option<Name>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawIonic {
+    hold: Q,
+    using: Name,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawStock {
+    name: Name,
+    solute: Option<Name>,
+    contains: Option<Spanned<Entries<Q>>>,
+    vessel: Option<Name>,
+    fixed_volume: Option<Q>,
+    devices: Option<Vec<Name>>,
+    note: Option<String>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDevice {
+    name: Name,
+    kind: Name,
+    capacity: Option<Q>,
+    graduation: Option<Q>,
+    volume: Option<Q>,
+    range: Option<Spanned<Vec<Q>>>,
+    step: Option<Q>,
+    min: Option<Q>,
+    class: Option<Name>,
+    fills: Option<Spanned<i64>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawRun {
+    name: Name,
+    targets: Spanned<Entries<Q>>,
+    note: Option<String>,
+}
+
+// ---------------------------------------------------------------------------------------------
+// The checked plan
+// ---------------------------------------------------------------------------------------------
+
+/// One of the two vessels mixed at t = 0.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+pub enum Vessel {
+    A,
+    B,
+}
+
+impl Vessel {
+    pub fn other(self) -> Vessel {
+        match self {
+            Vessel::A => Vessel::B,
+            Vessel::B => Vessel::A,
+        }
+    }
+}
+
+impl fmt::Display for Vessel {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Vessel::A => "A",
+            Vessel::B => "B",
+        })
+    }
+}
+
+/// Where the make-up water goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WaterVessel {
+    /// Split between the vessels so that their volumes are as close as the glassware allows.
+    Split,
+    Only(Vessel),
+}
+
+#[derive(Debug, Clone)]
+pub struct Stock {
+    pub name: String,
+    pub solute: Option<String>,
+    /// Species and their concentrations (mol/L), in the order written.
+    pub contains: Vec<(String, f64)>,
+    pub vessel: Option<Vessel>,
+    pub vessel_span: Option<Range<usize>>,
+    /// A volume (L) added to every run regardless of targets, such as an indicator.
+    pub fixed_volume: Option<f64>,
+    /// Indices of the devices allowed for this stock.
+    pub devices: Vec<usize>,
+    pub note: Option<String>,
+    pub span: Range<usize>,
+    pub name_span: Range<usize>,
+}
+
+impl Stock {
+    pub fn concentration_of(&self, species: &str) -> f64 {
+        self.contains
+            .iter()
+            .find(|(s, _)| s == species)
+            .map_or(0.0, |(_, c)| *c)
+    }
+
+    /// Contribution of one litre of this stock to ionic strength, ½ Σ cᵢ zᵢ² (mol/L).
+    pub fn ionic_strength(&self) -> f64 {
+        0.5 * self
+            .contains
+            .iter()
+            .map(|(s, c)| {
+                let z = species::charge(s).unwrap_or(0) as f64;
+                c * z * z
+            })
+            .sum::<f64>()
+    }
+}
+
+#[derive(Debug, Clone)]
+pub struct Target {
+    pub species: String,
+    /// mol/L
+    pub concentration: f64,
+    pub span: Range<usize>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Run {
+    pub name: String,
+    pub targets: Vec<Target>,
+    pub note: Option<String>,
+    pub span: Range<usize>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Timing {
+    pub species: String,
+    /// mol/L, identical in every run.
+    pub concentration: f64,
+    /// Index of the one stock that holds the timing species.
+    pub stock: usize,
+    pub span: Range<usize>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum IonicTarget {
+    /// Hold ionic strength at this value (mol/L) in every run.
+    Value(f64),
+    /// Hold it at the largest value any run reaches without the inert salt.
+    Max,
+}
+
+#[derive(Debug, Clone)]
+pub struct IonicHold {
+    pub target: IonicTarget,
+    pub stock: usize,
+    pub span: Range<usize>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Mixing {
+    /// Groups of species that must not all be in one vessel before t = 0.
+    pub keep_apart: Vec<Vec<String>>,
+    pub span: Option<Range<usize>>,
+    /// The vessel that is poured into the other at t = 0.
+    pub poured: Vessel,
+}
+
+/// A checked plan: everything the later stages need, in internal units.
+#[derive(Debug, Clone)]
+pub struct Spec {
+    pub source: SpecSource,
+    pub title: String,
+    /// L
+    pub total_volume: f64,
+    pub total_span: Range<usize>,
+    pub stations: u32,
+    pub replicates: u32,
+    /// fraction, e.g. 0.15
+    pub overage: f64,
+    /// K
+    pub temperature: Option<f64>,
+    /// largest accepted relative deviation of a final concentration
+    pub tolerance: f64,
+    /// volumetric flask sizes (L), ascending
+    pub flasks: Vec<f64>,
+    pub timing: Timing,
+    pub stocks: Vec<Stock>,
+    pub devices: Vec<Device>,
+    pub water_devices: Vec<usize>,
+    pub water_vessel: WaterVessel,
+    pub mixing: Mixing,
+    pub ionic: Option<IonicHold>,
+    pub runs: Vec<Run>,
+}
+
+/// Default volumetric flask sizes (mL): the common stock sizes (common practice).
+pub const DEFAULT_FLASKS_ML: [f64; 5] = [50.0, 100.0, 250.0, 500.0, 1000.0];
+
+// ---------------------------------------------------------------------------------------------
+// Reading and checking
+// ---------------------------------------------------------------------------------------------
+
+/// Parse and check a spec.
+pub fn load(source: SpecSource) -> Result<Spec> {
+    let raw: RawSpec = toml::from_str(&source.text).map_err(|e| {
+        let span = e.span().unwrap_or(0..0);
+        let msg = e.message().trim().to_string();
+        let help = if msg.contains("unknown field") {
+            "remove the key or fix its spelling; the README lists every key a spec accepts"
+        } else if msg.contains("missing field") {
+            "add the missing key; the README shows a complete spec"
+        } else {
+            "fix the TOML syntax here; strings need double quotes, e.g. total_volume = \"30.0 mL\""
+        };
+        source.error(span, format!("the spec is not valid: {msg}"), "here", help)
+    })?;
+    Checker { src: &source }.check(raw, source.clone())
+}
+
+struct Checker<'a> {
+    src: &'a SpecSource,
+}
+
+fn inner(span: Range<usize>, text: &str) -> Range<usize> {
+    // Spans of TOML strings include their quotes; point inside them.
+    let quote = text
+        .get(span.start..span.start + 1)
+        .is_some_and(|c| c == "\"" || c == "'");
+    if quote && span.end > span.start + 1 {
+        span.start + 1..span.end - 1
+    } else {
+        span
+    }
+}
+
+impl Checker<'_> {
+    fn err(&self, span: Range<usize>, msg: impl Into<String>, label: &str, help: impl Into<String>) -> Error {
+        self.src.error(span, msg, label, help)
+    }
+
+    /// A quantity of a given kind; `field` names it in messages.
+    fn qty(&self, q: &Q, kind: Kind, field: &str) -> Result<f64> {
+        let span = q.span();
+        match q.get_ref() {
+            Value::String(s) => units::parse(s, kind).map_err(|e| {
+                let inner = inner(span.clone(), &self.src.text);
+                let r = e.range(s.len());
+                let at = if r.is_empty() { inner.clone() } else { inner.start + r.start..inner.start + r.end };
+                self.err(
+                    at,
+                    format!("{field}: {}", e.describe(kind)),
+                    "here",
+                    format!("write {} with its unit, e.g. {field} = {}", kind.noun(), kind.example()),
+                )
+            }),
+            Value::Integer(_) | Value::Float(_) => Err(self.err(
+                span,
+                format!("{field}: a bare number has no unit"),
+                "no unit",
+                format!("write {} as a string with its unit, e.g. {field} = {}", kind.noun(), kind.example()),
+            )),
+            _ => Err(self.err(
+                span,
+                format!("{field}: expected {}", kind.noun()),
+                "not a quantity",
+                format!("write it as a string with its unit, e.g. {field} = {}", kind.example()),
+            )),
+        }
+    }
+
+    fn positive(&self, q: &Q, kind: Kind, field: &str) -> Result<f64> {
+        let v = self.qty(q, kind, field)?;
+        if v <= 0.0 {
+            return Err(self.err(
+                inner(q.span(), &self.src.text),
+                format!("{field} must be greater than zero"),
+                "not positive",
+                format!("give a positive value, e.g. {field} = {}", kind.example()),
+            ));
+        }
+        Ok(v)
+    }
+
+    fn count(&self, v: &Option<Spanned<i64>>, field: &str, default: u32) -> Result<u32> {
+        match v {
+            None => Ok(default),
+            Some(s) if (1..=10_000).contains(s.get_ref()) => Ok(*s.get_ref() as u32),
+            Some(s) => Err(self.err(
+                s.span(),
+                format!("{field} must be a whole number from 1 to 10000"),
+                "out of range",
+                format!("e.g. {field} = 2"),
+            )),
+        }
+    }
+
+    fn species(&self, name: &Name) -> Result<String> {
+        let canon = species::canonical(name.get_ref());
+        species::charge(&canon).map_err(|e| {
+            self.err(
+                inner(name.span(), &self.src.text),
+                format!("species '{}': {}", name.get_ref(), e.describe()),
+                "not a species",
+                "write the formula with its charge at the end, e.g. \"H+\", \"BrO3-\", \"S2O3^2-\"",
+            )
+        })?;
+        Ok(canon)
+    }
+
+    fn vessel(&self, name: &Name) -> Result<Vessel> {
+        match name.get_ref().trim() {
+            "A" | "a" => Ok(Vessel::A),
+            "B" | "b" => Ok(Vessel::B),
+            other => Err(self.err(
+                inner(name.span(), &self.src.text),
+                format!("unknown vessel '{other}'"),
+                "not a vessel",
+                "each run is mixed from two vessels: write vessel = \"A\" or vessel = \"B\"",
+            )),
+        }
+    }
+
+    fn check(&self, raw: RawSpec, source: SpecSource) -> Result<Spec> {
+        let plan = raw.plan.get_ref();
+        let title = plan.title.get_ref().trim().to_string();
+        if title.is_empty() {
+            return Err(self.err(plan.title.span(), "the plan title is empty", "empty", "e.g. title = \"Section 3 rate law\""));
+        }
+        let total_volume = self.positive(&plan.total_volume, Kind::Volume, "total_volume")?;
+        let stations = self.count(&plan.stations, "stations", 1)?;
+        let replicates = self.count(&plan.replicates, "replicates", 1)?;
+        let overage = match &plan.overage {
+            None => 0.10,
+            Some(q) => {
+                let v = self.qty(q, Kind::Fraction, "overage")?;
+                if !(0.0..=2.0).contains(&v) {
+                    return Err(self.err(inner(q.span(), &self.src.text), "overage must be from 0 % to 200 %", "out of range", "e.g. overage = \"15 %\""));
+                }
+                v
+            }
+        };
+        let tolerance = match &plan.tolerance {
+            None => 0.01,
+            Some(q) => {
+                let v = self.positive(q, Kind::Fraction, "tolerance")?;
+                if v > 0.5 {
+                    return Err(self.err(inner(q.span(), &self.src.text), "tolerance must be at most 50 %", "too large", "e.g. tolerance = \"1 %\""));
+                }
+                v
+            }
+        };
+        let temperature = match &plan.temperature {
+            None => None,
+            Some(q) => {
+                let t = self.qty(q, Kind::Temperature, "temperature")?;
+                if !(273.15..=333.15).contains(&t) {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        format!("temperature {:.1} °C is outside 0–60 °C", t - 273.15),
+                        "out of range",
+                        "clock runs are planned for a teaching lab between 0 and 60 °C, e.g. temperature = \"21 °C\"",
+                    ));
+                }
+                Some(t)
+            }
+        };
+        let flasks = match &plan.flasks {
+            None => DEFAULT_FLASKS_ML.iter().map(|v| v * 1e-3).collect(),
+            Some(list) => {
+                let mut out = Vec::new();
+                for q in list {
+                    out.push(self.positive(q, Kind::Volume, "flasks")?);
+                }
+                out.sort_by(f64::total_cmp);
+                out.dedup();
+                out
+            }
+        };
+
+        // Devices
+        let mut devices: Vec<Device> = Vec::new();
+        let mut device_index: HashMap<String, usize> = HashMap::new();
+        for d in &raw.device {
+            let dev = self.device(d.get_ref(), d.span())?;
+            if device_index.insert(dev.name.clone(), devices.len()).is_some() {
+                return Err(self.err(inner(d.get_ref().name.span(), &self.src.text), format!("two devices are named '{}'", dev.name), "duplicate", "give each device its own name"));
+            }
+            devices.push(dev);
+        }
+        if devices.is_empty() {
+            return Err(self.err(0..0, "the spec lists no glassware", "", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
+        }
+        let all_devices: Vec<usize> = (0..devices.len()).collect();
+        let resolve_devices = |names: &Option<Vec<Name>>| -> Result<Vec<usize>> {
+            match names {
+                None => Ok(all_devices.clone()),
+                Some(list) => {
+                    let mut out = Vec::new();
+                    for n in list {
+                        let i = device_index.get(n.get_ref().trim()).copied().ok_or_else(|| {
+                            self.err(
+                                inner(n.span(), &self.src.text),
+                                format!("unknown device '{}'", n.get_ref()),
+                                "not a [[device]] name",
+                                format!("use one of: {}", devices.iter().map(|d| format!("\"{}\"", d.name)).collect::<Vec<_>>().join(", ")),
+                            )
+                        })?;
+                        if !out.contains(&i) {
+                            out.push(i);
+                        }
+                    }
+                    if out.is_empty() {
+                        return Err(self.err(0..0, "an empty device list allows nothing", "", "list at least one device, or leave the key out to allow all"));
+                    }
+                    Ok(out)
+                }
+            }
+        };
+
+        // Stocks
+        let mut stocks: Vec<Stock> = Vec::new();
+        for s in &raw.stock {
+            let r = s.get_ref();
+            let name = r.name.get_ref().trim().to_string();
+            if name.is_empty() {
+                return Err(self.err(r.name.span(), "a stock has an empty name", "empty", "name it after what is in the bottle, e.g. \"KI 0.0150 M\""));
+            }
+            if name.eq_ignore_ascii_case("water") {
+                return Err(self.err(inner(r.name.span(), &self.src.text), "'water' is the make-up and is not a stock", "reserved", "leave water out of [[stock]]; use [water] to restrict its devices"));
+            }
+            if stocks.iter().any(|o| o.name == name) {
+                return Err(self.err(inner(r.name.span(), &self.src.text), format!("two stocks are named '{name}'"), "duplicate", "give each stock its own name"));
+            }
+            let mut contains = Vec::new();
+            if let Some(c) = &r.contains {
+                for (k, q) in &c.get_ref().0 {
+                    let sp = self.species(k)?;
+                    if contains.iter().any(|(o, _): &(String, f64)| *o == sp) {
+                        return Err(self.err(inner(k.span(), &self.src.text), format!("stock '{name}' names {sp} twice"), "duplicate", "list each species once"));
+                    }
+                    let c = self.positive(q, Kind::Concentration, &format!("stock '{name}', {sp}"))?;
+                    contains.push((sp, c));
+                }
+            }
+            let fixed_volume = match &r.fixed_volume {
+                None => None,
+                Some(q) => Some(self.positive(q, Kind::Volume, "fixed_volume")?),
+            };
+            if contains.is_empty() && fixed_volume.is_none() {
+                return Err(self.err(
+                    inner(r.name.span(), &self.src.text),
+                    format!("stock '{name}' contains no species"),
+                    "nothing in it",
+                    "give its contents, e.g. contains = { \"I-\" = \"0.0150 M\", \"K+\" = \"0.0150 M\" }, or a fixed_volume for an indicator",
+                ));
+            }
+            stocks.push(Stock {
+                name,
+                solute: r.solute.as_ref().map(|s| s.get_ref().trim().to_string()),
+                contains,
+                vessel: r.vessel.as_ref().map(|v| self.vessel(v)).transpose()?,
+                vessel_span: r.vessel.as_ref().map(|v| v.span()),
+                fixed_volume,
+                devices: resolve_devices(&r.devices)?,
+                note: r.note.clone(),
+                span: s.span(),
+                name_span: inner(r.name.span(), &self.src.text),
+            });
+        }
+        if stocks.is_empty() {
+            return Err(self.err(0..0, "the spec lists no stocks", "", "add a [[stock]] for each bottle on the shelf"));
+        }
+        let known: BTreeSet<&str> = stocks.iter().flat_map(|s| s.contains.iter().map(|(sp, _)| sp.as_str())).collect();
+        let unknown_species = |name: &Name, sp: &str| {
+            self.err(
+                inner(name.span(), &self.src.text),
+                format!("no stock contains {sp}"),
+                "unknown species",
+                format!("species in the stocks: {}", known.iter().copied().collect::<Vec<_>>().join(", ")),
+            )
+        };
+
+        // Timing reagent
+        let t = raw.timing.get_ref();
+        let timing_species = self.species(&t.species)?;
+        let timing_conc = self.positive(&t.concentration, Kind::Concentration, "timing concentration")?;
+        let holders: Vec<usize> = (0..stocks.len()).filter(|&i| stocks[i].concentration_of(&timing_species) > 0.0).collect();
+        let timing_stock = match holders.as_slice() {
+            [] => return Err(unknown_species(&t.species, &timing_species)),
+            [one] => *one,
+            [_, second, ..] => {
+                return Err(self.err(
+                    stocks[*second].name_span.clone(),
+                    format!("the timing species {timing_species} is in more than one stock"),
+                    "a second source",
+                    "keep the timing reagent in one stock, so every run gets the same volume of it",
+                ))
+            }
+        };
+
+        // Water
+        let (water_devices, water_vessel) = match &raw.water {
+            None => (all_devices.clone(), WaterVessel::Split),
+            Some(w) => {
+                let vessel = match &w.vessel {
+                    None => WaterVessel::Split,
+                    Some(v) if v.get_ref().trim().eq_ignore_ascii_case("split") => WaterVessel::Split,
+                    Some(v) => WaterVessel::Only(self.vessel(v)?),
+                };
+                (resolve_devices(&w.devices)?, vessel)
+            }
+        };
+
+        // Mixing
+        let mixing = match &raw.mixing {
+            None => Mixing { keep_apart: Vec::new(), span: None, poured: Vessel::B },
+            Some(m) => {
+                let mut groups = Vec::new();
+                for g in &m.keep_apart {
+                    let mut group = Vec::new();
+                    for n in g.get_ref() {
+                        let sp = self.species(n)?;
+                        if !known.contains(sp.as_str()) {
+                            return Err(unknown_species(n, &sp));
+                        }
+                        group.push(sp);
+                    }
+                    if group.len() < 2 {
+                        return Err(self.err(g.span(), "a keep_apart group needs at least two species", "too short", "e.g. keep_apart = [[\"BrO3-\", \"I-\", \"H+\"]]"));
+                    }
+                    groups.push(group);
+                }
+                let poured = match &m.pour {
+                    None => Vessel::B,
+                    Some(p) => match p.get_ref().trim() {
+                        "B into A" => Vessel::B,
+                        "A into B" => Vessel::A,
+                        other => {
+                            return Err(self.err(inner(p.span(), &self.src.text), format!("unknown pour order '{other}'"), "here", "write pour = \"B into A\" or pour = \"A into B\""))
+                        }
+                    },
+                };
+                Mixing { keep_apart: groups, span: m.keep_apart.first().map(|g| g.span()), poured }
+            }
+        };
+
+        // Ionic strength
+        let ionic = match &raw.ionic_strength {
+            None => None,
+            Some(i) => {
+                let r = i.get_ref();
+                let target = match r.hold.get_ref() {
+                    Value::String(s) if s.trim() == "max" => IonicTarget::Max,
+                    _ => IonicTarget::Value(self.positive(&r.hold, Kind::Concentration, "hold")?),
+                };
+                let stock = stocks.iter().position(|s| s.name == r.using.get_ref().trim()).ok_or_else(|| {
+                    self.err(inner(r.using.span(), &self.src.text), format!("unknown stock '{}'", r.using.get_ref()), "not a [[stock]] name", "name the inert salt stock, e.g. using = \"KNO3 1.00 M\"")
+                })?;
+                if stocks[stock].ionic_strength() <= 0.0 {
+                    return Err(self.err(inner(r.using.span(), &self.src.text), format!("stock '{}' holds no ions", stocks[stock].name), "no ions", "use a salt stock whose species carry charges, e.g. \"K+\" and \"NO3-\""));
+                }
+                if stock == timing_stock || stocks[stock].fixed_volume.is_some() {
+                    return Err(self.err(inner(r.using.span(), &self.src.text), "the inert salt must be a stock whose volume may vary", "fixed volume", "use a separate salt stock such as KNO3 or NaNO3"));
+                }
+                Some(IonicHold { target, stock, span: i.span() })
+            }
+        };
+
+        // Runs
+        let mut runs: Vec<Run> = Vec::new();
+        for r in &raw.run {
+            let rr = r.get_ref();
+            let name = rr.name.get_ref().trim().to_string();
+            if name.is_empty() {
+                return Err(self.err(rr.name.span(), "a run has an empty name", "empty", "e.g. name = \"iodide doubled\""));
+            }
+            if runs.iter().any(|o| o.name == name) {
+                return Err(self.err(inner(rr.name.span(), &self.src.text), format!("two runs are named '{name}'"), "duplicate", "give each run its own name"));
+            }
+            let entries = &rr.targets.get_ref().0;
+            if entries.is_empty() {
+                return Err(self.err(rr.targets.span(), format!("run '{name}' has no targets"), "empty", "give the final concentration of each varied species, e.g. targets = { \"I-\" = \"2.50 mM\" }"));
+            }
+            let mut targets = Vec::new();
+            for (k, q) in entries {
+                let sp = self.species(k)?;
+                if !known.contains(sp.as_str()) {
+                    return Err(unknown_species(k, &sp));
+                }
+                if sp == timing_species {
+                    return Err(self.err(inner(k.span(), &self.src.text), format!("{sp} is the timing species; its concentration is set once in [timing]"), "fixed in every run", "remove it from the run's targets"));
+                }
+                if targets.iter().any(|t: &Target| t.species == sp) {
+                    return Err(self.err(inner(k.span(), &self.src.text), format!("run '{name}' names {sp} twice"), "duplicate", "list each species once"));
+                }
+                let c = self.positive(q, Kind::Concentration, &format!("run '{name}', {sp}"))?;
+                targets.push(Target { species: sp, concentration: c, span: inner(q.span(), &self.src.text) });
+            }
+            runs.push(Run { name, targets, note: rr.note.clone(), span: r.span() });
+        }
+        if runs.is_empty() {
+            return Err(self.err(0..0, "the spec lists no runs", "", "add a [[run]] with a name and targets for each concentration set"));
+        }
+        let first: BTreeSet<&str> = runs[0].targets.iter().map(|t| t.species.as_str()).collect();
+        for (r, raw_run) in runs.iter().zip(&raw.run).skip(1) {
+            let these: BTreeSet<&str> = r.targets.iter().map(|t| t.species.as_str()).collect();
+            if these != first {
+                let missing: Vec<&str> = first.symmetric_difference(&these).copied().collect();
+                return Err(self.err(
+                    raw_run.get_ref().targets.span(),
+                    format!("run '{}' targets different species from run '{}' ({})", r.name, runs[0].name, missing.join(", ")),
+                    "different species",
+                    "every run sets the same species, so runs can be compared; give each run a target for each of them",
+                ));
+            }
+        }
+
+        Ok(Spec {
+            source,
+            title,
+            total_volume,
+            total_span: inner(plan.total_volume.span(), &self.src.text),
+            stations,
+            replicates,
+            overage,
+            temperature,
+            tolerance,
+            flasks,
+            timing: Timing { species: timing_species, concentration: timing_conc, stock: timing_stock, span: inner(t.concentration.span(), &self.src.text) },
+            stocks,
+            devices,
+            water_devices,
+            water_vessel,
+            mixing,
+            ionic,
+            runs,
+        })
+    }
+
+    fn device(&self, r: &RawDevice, span: Range<usize>) -> Result<Device> {
+        let name = r.name.get_ref().trim().to_string();
+        if name.is_empty() {
+            return Err(self.err(r.name.span(), "a device has an empty name", "empty", "e.g. name = \"25 mL buret\""));
+        }
+        let kind = DeviceKind::parse(r.kind.get_ref()).ok_or_else(|| {
+            self.err(inner(r.kind.span(), &self.src.text), format!("unknown kind of device '{}'", r.kind.get_ref()), "unknown kind", format!("use {}", DeviceKind::ACCEPTED))
+        })?;
+        let need = |q: &Option<Q>, field: &str, example: &str| -> Result<f64> {
+            match q {
+                Some(q) => self.positive(q, Kind::Volume, field),
+                None => Err(self.err(span.clone(), format!("device '{name}' ({kind}) needs {field}"), "incomplete device", format!("add e.g. {field} = {example}"))),
+            }
+        };
+        let forbid = |q: &Option<Q>, field: &str| -> Result<()> {
+            match q {
+                Some(q) => Err(self.err(q.span(), format!("{field} does not apply to a {kind}"), "not for this kind", "remove it; the README lists the keys of each kind of device")),
+                None => Ok(()),
+            }
+        };
+        let class = match &r.class {
+            None => None,
+            Some(c) => Some(match c.get_ref().trim() {
+                "A" => Class::A,
+                "B" => Class::B,
+                other => return Err(self.err(inner(c.span(), &self.src.text), format!("unknown tolerance class '{other}'"), "not A or B", "write class = \"A\" or class = \"B\"")),
+            }),
+        };
+        let (step, min, max, max_fills) = match kind {
+            DeviceKind::VolumetricPipet => {
+                forbid(&r.capacity, "capacity")?;
+                forbid(&r.graduation, "graduation")?;
+                forbid(&r.step, "step")?;
+                forbid(&r.min, "min")?;
+                if let Some(rg) = &r.range {
+                    return Err(self.err(rg.span(), format!("range does not apply to a {kind}"), "not for this kind", "a volumetric pipet has one volume"));
+                }
+                let v = need(&r.volume, "volume", "\"10 mL\"")?;
+                let fills = match &r.fills {
+                    None => 1,
+                    Some(f) if (1..=20).contains(f.get_ref()) => *f.get_ref() as u32,
+                    Some(f) => return Err(self.err(f.span(), "fills must be a whole number from 1 to 20", "out of range", "fills = 2 lets one addition take two fills of this pipet")),
+                };
+                (v, v, v * fills as f64, fills)
+            }
+            DeviceKind::PistonPipette => {
+                forbid(&r.capacity, "capacity")?;
+                forbid(&r.graduation, "graduation")?;
+                forbid(&r.volume, "volume")?;
+                forbid(&r.min, "min")?;
+                let rg = r.range.as_ref().ok_or_else(|| self.err(span.clone(), format!("device '{name}' (piston pipette) needs range"), "incomplete device", "add e.g. range = [\"100 uL\", \"1000 uL\"]"))?;
+                let [lo, hi] = rg.get_ref().as_slice() else {
+                    return Err(self.err(rg.span(), "range needs two volumes: smallest and largest", "here", "e.g. range = [\"100 uL\", \"1000 uL\"]"));
+                };
+                let lo = self.positive(lo, Kind::Volume, "range")?;
+                let hi = self.positive(hi, Kind::Volume, "range")?;
+                if lo > hi {
+                    return Err(self.err(rg.span(), "range runs from larger to smaller", "reversed", "write the smallest volume first"));
+                }
+                let step = need(&r.step, "step", "\"1 uL\"")?;
+                (step, lo, hi, 1)
+            }
+            _ => {
+                forbid(&r.volume, "volume")?;
+                forbid(&r.step, "step")?;
+                if let Some(rg) = &r.range {
+                    return Err(self.err(rg.span(), format!("range does not apply to a {kind}"), "not for this kind", "give capacity and graduation instead"));
+                }
+                if let Some(f) = &r.fills {
+                    return Err(self.err(f.span(), format!("fills does not apply to a {kind}"), "not for this kind", "only volumetric pipets are refilled for one addition"));
+                }
+                let cap = need(&r.capacity, "capacity", "\"25 mL\"")?;
+                let grad = need(&r.graduation, "graduation", "\"0.05 mL\"")?;
+                // A graduated cylinder is not read below about a tenth of its capacity
+                // (common practice); other graduated glassware down to one graduation.
+                let default_min = if kind == DeviceKind::GraduatedCylinder { cap / 10.0 } else { grad };
+                let min = match &r.min {
+                    None => default_min,
+                    Some(q) => self.positive(q, Kind::Volume, "min")?,
+                };
+                (grad, min, cap, 1)
+            }
+        };
+        if step > max * (1.0 + 1e-12) {
+            return Err(self.err(span, format!("device '{name}': its step is larger than its capacity"), "inconsistent device", "check the graduation or step against the capacity or range"));
+        }
+        if max / step > 200_000.0 {
+            return Err(self.err(span, format!("device '{name}': more than 200000 steps between zero and its capacity"), "step too fine", "give the graduation you can actually read, e.g. graduation = \"0.05 mL\""));
+        }
+        if min > max {
+            return Err(self.err(span, format!("device '{name}': min is larger than its capacity"), "inconsistent device", "lower min"));
+        }
+        Ok(Device { name, kind, class, step, min, max, max_fills })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    pub const SMALL: &str = r#"
+[plan]
+title = "test"
+total_volume = "20.0 mL"
+
+[timing]
+species = "S2O3^2-"
+concentration = "0.100 mM"
+
+[mixing]
+keep_apart = [["I-", "BrO3-"]]
+
+[[stock]]
+name = "KI"
+contains = { "I-" = "0.0200 M", "K+" = "0.0200 M" }
+
+[[stock]]
+name = "KBrO3"
+contains = { "BrO3-" = "0.0400 M", "K+" = "0.0400 M" }
+
+[[stock]]
+name = "thio"
+contains = { "S2O3^2-" = "1.00 mM", "Na+" = "2.00 mM" }
+
+[[device]]
+name = "buret"
+kind = "buret"
+capacity = "25 mL"
+graduation = "0.05 mL"
+
+[[run]]
+name = "r1"
+targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
+"#;
+
+    fn load_str(text: &str) -> Result<Spec> {
+        load(SpecSource::new("t.toml", text))
+    }
+
+    #[test]
+    fn loads_a_small_spec() {
+        let s = load_str(SMALL).unwrap();
+        assert_eq!(s.stocks.len(), 3);
+        assert_eq!(s.timing.stock, 2);
+        assert_eq!(s.runs[0].targets[0].species, "I-");
+        approx::assert_relative_eq!(s.total_volume, 0.020);
+        approx::assert_relative_eq!(s.overage, 0.10);
+        // ½ Σ c z² for 0.0400 M KBrO3 = 0.0400 M (1:1 electrolyte).
+        approx::assert_relative_eq!(s.stocks[1].ionic_strength(), 0.040);
+    }
+
+    #[test]
+    fn bare_number_points_at_it() {
+        let text = SMALL.replace("\"20.0 mL\"", "20");
+        let e = load_str(&text).unwrap_err();
+        assert!(e.message().contains("bare number"), "{}", e.message());
+        assert!(e.help_text().unwrap().contains("\"30.0 mL\""));
+    }
+
+    #[test]
+    fn unknown_keys_are_errors() {
+        let text = SMALL.replace("title = \"test\"", "title = \"test\"\ncolour = \"red\"");
+        let e = load_str(&text).unwrap_err();
+        assert!(e.message().contains("unknown field"), "{}", e.message());
+    }
+}

@@ -1,0 +1,329 @@
+//! Quantities with units, as written in a plan spec ("30.0 mL", "2.50 mM", "21 °C", "15 %").
+//!
+//! Internal units form one consistent set: volume in litres (L), amount concentration in
+//! mol/L (M), temperature in kelvin (K), time in seconds (s), fractions as plain ratios.
+//! Every parse keeps the byte range of the offending text so errors can point at it.
+
+use std::fmt;
+use std::ops::Range;
+
+/// What a quantity measures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Kind {
+    Volume,
+    Concentration,
+    Temperature,
+    Fraction,
+    Time,
+}
+
+impl Kind {
+    /// A valid example, shown whenever a quantity of this kind is written wrongly.
+    pub fn example(self) -> &'static str {
+        match self {
+            Kind::Volume => "\"30.0 mL\" (also L, uL or µL)",
+            Kind::Concentration => "\"0.0150 M\" (also mM, uM, µM or mol/L)",
+            Kind::Temperature => "\"21 °C\" (also degC or K)",
+            Kind::Fraction => "\"15 %\"",
+            Kind::Time => "\"90 s\" (also min or h)",
+        }
+    }
+
+    pub fn noun(self) -> &'static str {
+        match self {
+            Kind::Volume => "a volume",
+            Kind::Concentration => "a concentration",
+            Kind::Temperature => "a temperature",
+            Kind::Fraction => "a percentage",
+            Kind::Time => "a time",
+        }
+    }
+}
+
+impl fmt::Display for Kind {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.noun())
+    }
+}
+
+/// Why a quantity text could not be read. `at` is a byte range inside the text.
+#[derive(Debug, Clone, PartialEq)]
+pub enum UnitError {
+    Empty,
+    BadNumber { at: Range<usize> },
+    NotFinite { at: Range<usize> },
+    MissingUnit { at: Range<usize> },
+    UnknownUnit { unit: String, at: Range<usize> },
+    WrongKind { unit: String, found: Kind, at: Range<usize> },
+}
+
+impl UnitError {
+    pub fn range(&self, text_len: usize) -> Range<usize> {
+        match self {
+            UnitError::Empty => 0..text_len,
+            UnitError::BadNumber { at }
+            | UnitError::NotFinite { at }
+            | UnitError::MissingUnit { at }
+            | UnitError::UnknownUnit { at, .. }
+            | UnitError::WrongKind { at, .. } => at.clone(),
+        }
+    }
+
+    /// A one-line description, given the kind that was expected.
+    pub fn describe(&self, expected: Kind) -> String {
+        match self {
+            UnitError::Empty => format!("empty text where {expected} is needed"),
+            UnitError::BadNumber { .. } => format!("not a number: {expected} must start with one"),
+            UnitError::NotFinite { .. } => "the number is not finite (NaN or infinity)".into(),
+            UnitError::MissingUnit { .. } => format!("{expected} needs a unit"),
+            UnitError::UnknownUnit { unit, .. } => format!("unknown unit '{unit}'"),
+            UnitError::WrongKind { unit, found, .. } => {
+                format!("'{unit}' is {found}, but {expected} is needed here")
+            }
+        }
+    }
+}
+
+/// Split "2.50 mM" into its number (with range) and unit text (with range).
+fn split_number(text: &str) -> Result<(f64, Range<usize>, &str, Range<usize>), UnitError> {
+    let lead = text.len() - text.trim_start().len();
+    let body = text.trim();
+    if body.is_empty() {
+        return Err(UnitError::Empty);
+    }
+    // The number runs while characters can belong to a decimal in scientific notation.
+    let bytes = body.as_bytes();
+    let mut end = 0;
+    let mut seen_e = false;
+    while end < bytes.len() {
+        let c = bytes[end];
+        let ok = c.is_ascii_digit()
+            || c == b'.'
+            || ((c == b'+' || c == b'-') && (end == 0 || matches!(bytes[end - 1], b'e' | b'E')))
+            || ((c == b'e' || c == b'E')
+                && !seen_e
+                && end > 0
+                && bytes
+                    .get(end + 1)
+                    .is_some_and(|n| n.is_ascii_digit() || *n == b'-' || *n == b'+'));
+        if !ok {
+            break;
+        }
+        if c == b'e' || c == b'E' {
+            seen_e = true;
+        }
+        end += 1;
+    }
+    let num_text = &body[..end];
+    let num_range = lead..lead + end;
+    let lower = body.to_ascii_lowercase();
+    if lower.starts_with("nan")
+        || lower.starts_with("inf")
+        || lower.starts_with("+inf")
+        || lower.starts_with("-inf")
+    {
+        let word = body
+            .find(|c: char| c.is_whitespace())
+            .unwrap_or(body.len());
+        return Err(UnitError::NotFinite {
+            at: lead..lead + word,
+        });
+    }
+    let value: f64 = num_text.parse().map_err(|_| UnitError::BadNumber {
+        at: num_range.clone(),
+    })?;
+    if !value.is_finite() {
+        return Err(UnitError::NotFinite { at: num_range });
+    }
+    let rest = &body[end..];
+    let unit_lead = rest.len() - rest.trim_start().len();
+    let unit = rest.trim();
+    let unit_start = lead + end + unit_lead;
+    Ok((value, num_range, unit, unit_start..unit_start + unit.len()))
+}
+
+/// Look a unit up: its kind, and the factor and offset to the internal unit.
+fn unit_info(unit: &str) -> Option<(Kind, f64, f64)> {
+    let u = unit.replace('μ', "µ"); // Greek mu → micro sign
+    let info = match u.as_str() {
+        "L" | "l" | "dm3" | "dm^3" => (Kind::Volume, 1.0, 0.0),
+        "mL" | "ml" | "cm3" | "cm^3" => (Kind::Volume, 1e-3, 0.0),
+        "uL" | "µL" | "ul" | "µl" => (Kind::Volume, 1e-6, 0.0),
+        "M" | "mol/L" | "mol/l" | "mol/dm3" | "mol L^-1" | "mol L-1" => {
+            (Kind::Concentration, 1.0, 0.0)
+        }
+        "mM" | "mmol/L" | "mmol/l" => (Kind::Concentration, 1e-3, 0.0),
+        "uM" | "µM" | "umol/L" | "µmol/L" => (Kind::Concentration, 1e-6, 0.0),
+        "°C" | "degC" | "℃" | "C" => (Kind::Temperature, 1.0, 273.15),
+        "K" => (Kind::Temperature, 1.0, 0.0),
+        "%" => (Kind::Fraction, 0.01, 0.0),
+        "s" | "sec" => (Kind::Time, 1.0, 0.0),
+        "min" => (Kind::Time, 60.0, 0.0),
+        "h" => (Kind::Time, 3600.0, 0.0),
+        _ => return None,
+    };
+    Some(info)
+}
+
+/// A quantity read from text, in internal units.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Quantity {
+    pub value: f64,
+    pub kind: Kind,
+}
+
+/// Parse a quantity of any kind.
+pub fn parse_any(text: &str) -> Result<Quantity, UnitError> {
+    let (value, num_range, unit, unit_range) = split_number(text)?;
+    if unit.is_empty() {
+        return Err(UnitError::MissingUnit { at: num_range });
+    }
+    let (kind, factor, offset) = unit_info(unit).ok_or_else(|| UnitError::UnknownUnit {
+        unit: unit.to_string(),
+        at: unit_range.clone(),
+    })?;
+    Ok(Quantity {
+        value: value * factor + offset,
+        kind,
+    })
+}
+
+/// Parse a quantity that must be of `expected` kind; the value comes back in internal units.
+pub fn parse(text: &str, expected: Kind) -> Result<f64, UnitError> {
+    let (_, _, unit, unit_range) = split_number(text)?;
+    let q = parse_any(text)?;
+    if q.kind != expected {
+        return Err(UnitError::WrongKind {
+            unit: unit.to_string(),
+            found: q.kind,
+            at: unit_range,
+        });
+    }
+    Ok(q.value)
+}
+
+/// Format a volume in mL with `decimals` places.
+pub fn ml(litres: f64, decimals: usize) -> String {
+    format!("{:.*}", decimals, litres * 1e3)
+}
+
+/// Format a concentration with a unit chosen for readability (M, mM or µM), 3 significant figures.
+pub fn concentration(molar: f64) -> String {
+    let (v, u) = if molar == 0.0 {
+        (0.0, "M")
+    } else if molar.abs() >= 0.1 {
+        (molar, "M")
+    } else if molar.abs() >= 1e-4 {
+        (molar * 1e3, "mM")
+    } else {
+        (molar * 1e6, "µM")
+    };
+    format!("{} {u}", sig3(v))
+}
+
+/// Three significant figures, without scientific notation for lab-sized numbers.
+pub fn sig3(v: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    let mag = v.abs().log10().floor() as i32;
+    let decimals = (2 - mag).max(0) as usize;
+    format!("{:.*}", decimals, v)
+}
+
+/// Decimal places needed to show a step such as 0.05 mL or 0.001 mL exactly.
+pub fn decimals_for_step_ml(step_ml: f64) -> usize {
+    for d in 0..6 {
+        let scaled = step_ml * 10f64.powi(d as i32);
+        if (scaled - scaled.round()).abs() < 1e-6 {
+            return d;
+        }
+    }
+    6
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn volumes_in_litres() {
+        assert_relative_eq!(parse("30.0 mL", Kind::Volume).unwrap(), 0.030);
+        assert_relative_eq!(parse("250 uL", Kind::Volume).unwrap(), 250e-6);
+        assert_relative_eq!(parse("250 µL", Kind::Volume).unwrap(), 250e-6);
+        assert_relative_eq!(parse("250 μL", Kind::Volume).unwrap(), 250e-6);
+        assert_relative_eq!(parse("1.5L", Kind::Volume).unwrap(), 1.5);
+    }
+
+    #[test]
+    fn concentrations_in_molar() {
+        assert_relative_eq!(parse("0.010 M", Kind::Concentration).unwrap(), 0.010);
+        assert_relative_eq!(parse("2.0 mM", Kind::Concentration).unwrap(), 0.002);
+        assert_relative_eq!(parse("1.5e-3 mol/L", Kind::Concentration).unwrap(), 0.0015);
+        assert_relative_eq!(parse("40 µM", Kind::Concentration).unwrap(), 40e-6);
+    }
+
+    #[test]
+    fn temperatures_in_kelvin() {
+        // 0 °C = 273.15 K by definition of the Celsius scale (SI Brochure, 9th ed., 2019).
+        assert_relative_eq!(parse("22 °C", Kind::Temperature).unwrap(), 295.15);
+        assert_relative_eq!(parse("295.15 K", Kind::Temperature).unwrap(), 295.15);
+        assert_relative_eq!(parse("-5 degC", Kind::Temperature).unwrap(), 268.15);
+    }
+
+    #[test]
+    fn fractions_and_times() {
+        assert_relative_eq!(parse("15 %", Kind::Fraction).unwrap(), 0.15);
+        assert_relative_eq!(parse("10 min", Kind::Time).unwrap(), 600.0);
+    }
+
+    #[test]
+    fn errors_locate_the_text() {
+        assert_eq!(
+            parse("30", Kind::Volume),
+            Err(UnitError::MissingUnit { at: 0..2 })
+        );
+        assert_eq!(
+            parse("30 mg", Kind::Volume),
+            Err(UnitError::UnknownUnit {
+                unit: "mg".into(),
+                at: 3..5
+            })
+        );
+        assert!(matches!(
+            parse("30 mM", Kind::Volume),
+            Err(UnitError::WrongKind {
+                found: Kind::Concentration,
+                ..
+            })
+        ));
+        assert!(matches!(
+            parse("NaN M", Kind::Concentration),
+            Err(UnitError::NotFinite { .. })
+        ));
+        assert!(matches!(
+            parse("inf mL", Kind::Volume),
+            Err(UnitError::NotFinite { .. })
+        ));
+        assert!(matches!(
+            parse("mL", Kind::Volume),
+            Err(UnitError::BadNumber { .. })
+        ));
+        assert_eq!(parse("  ", Kind::Volume), Err(UnitError::Empty));
+        assert!(matches!(
+            parse("1e999 mL", Kind::Volume),
+            Err(UnitError::NotFinite { .. })
+        ));
+    }
+
+    #[test]
+    fn formatting() {
+        assert_eq!(concentration(0.0025), "2.50 mM");
+        assert_eq!(concentration(0.25), "0.250 M");
+        assert_eq!(concentration(4e-5), "40.0 µM");
+        assert_eq!(decimals_for_step_ml(0.05), 2);
+        assert_eq!(decimals_for_step_ml(0.001), 3);
+        assert_eq!(decimals_for_step_ml(5.0), 0);
+    }
+}
