@@ -24,11 +24,18 @@ impl DeviceKind {
         let t = text.trim().to_ascii_lowercase().replace(['-', '_'], " ");
         Some(match t.as_str() {
             "buret" | "burette" => DeviceKind::Buret,
-            "graduated pipet" | "graduated pipette" | "mohr pipet" | "mohr pipette"
-            | "serological pipet" | "serological pipette" => DeviceKind::GraduatedPipet,
+            "graduated pipet"
+            | "graduated pipette"
+            | "mohr pipet"
+            | "mohr pipette"
+            | "serological pipet"
+            | "serological pipette" => DeviceKind::GraduatedPipet,
             "volumetric pipet" | "volumetric pipette" | "transfer pipet" | "transfer pipette"
             | "bulb pipet" | "bulb pipette" => DeviceKind::VolumetricPipet,
-            "piston pipette" | "piston pipet" | "micropipette" | "micropipet"
+            "piston pipette"
+            | "piston pipet"
+            | "micropipette"
+            | "micropipet"
             | "air displacement pipette" => DeviceKind::PistonPipette,
             "graduated cylinder" | "measuring cylinder" | "cylinder" => {
                 DeviceKind::GraduatedCylinder
@@ -196,8 +203,40 @@ pub fn find_delivery(volume: f64, allowed: &[usize], devices: &[Device]) -> Opti
     })
 }
 
+/// Find a way to deliver `volume` in at most two additions from the `allowed` devices (as when
+/// make-up water is split between the two vessels). A single addition is preferred.
+pub fn find_delivery_in_two(
+    volume: f64,
+    allowed: &[usize],
+    devices: &[Device],
+) -> Option<Delivery> {
+    if let Some(d) = find_delivery(volume, allowed, devices) {
+        return Some(d);
+    }
+    for &d in allowed {
+        for x in devices[d].volumes() {
+            if x >= volume {
+                break;
+            }
+            if let (Some(first), Some(second)) = (
+                find_delivery(x, allowed, devices),
+                find_delivery(volume - x, allowed, devices),
+            ) {
+                let mut parts = first.parts;
+                parts.extend(second.parts);
+                return Some(Delivery { parts });
+            }
+        }
+    }
+    None
+}
+
 /// Fewest total fills of the given volumetric pipets that add up to `volume`.
-fn volumetric_combination(volume: f64, pipets: &[usize], devices: &[Device]) -> Option<Vec<(usize, u32)>> {
+fn volumetric_combination(
+    volume: f64,
+    pipets: &[usize],
+    devices: &[Device],
+) -> Option<Vec<(usize, u32)>> {
     fn search(
         i: usize,
         left: f64,

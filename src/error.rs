@@ -69,7 +69,9 @@ pub struct SpecError {
 #[derive(Debug, Error, Diagnostic)]
 pub enum Error {
     #[error("cannot read the spec {}: {source}", path.display())]
-    #[diagnostic(help("check the path; specs are TOML files such as plans/maple-hollow-bromate.toml"))]
+    #[diagnostic(help(
+        "check the path; specs are TOML files such as plans/maple-hollow-bromate.toml"
+    ))]
     ReadSpec {
         path: PathBuf,
         source: std::io::Error,
@@ -96,7 +98,9 @@ pub enum Error {
 
     /// The solver failed in a way the checks before it did not foresee.
     #[error("run '{run}': the solver stopped: {reason}")]
-    #[diagnostic(help("this is a clockprep bug if the checks above passed; please report it with the spec"))]
+    #[diagnostic(help(
+        "this is a clockprep bug if the checks above passed; please report it with the spec"
+    ))]
     Solver { run: String, reason: String },
 }
 

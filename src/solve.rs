@@ -15,9 +15,9 @@
 //! Before the integer model, a continuous model of the same run checks that the targets are
 //! reachable at all; when they are not, the reason is stated in the user's terms.
 
-use crate::device::{find_delivery, Delivery, Device};
+use crate::device::{find_delivery, find_delivery_in_two, Delivery, Device};
 use crate::error::{Error, Result};
-use crate::spec::{IonicTarget, Run, Spec};
+use crate::spec::{IonicTarget, Run, Spec, WaterVessel};
 use crate::units;
 use good_lp::{
     microlp, variable, Expression, ProblemVariables, ResolutionError, Solution as _, SolverModel,
@@ -74,7 +74,9 @@ pub struct RunSolution {
 
 impl RunSolution {
     pub fn water(&self) -> &Addition {
-        self.additions.last().expect("water is always the last addition")
+        self.additions
+            .last()
+            .expect("water is always the last addition")
     }
 
     pub fn volume_of(&self, stock: usize) -> f64 {
@@ -196,7 +198,10 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
             ));
         }
         let help = if options.is_empty() {
-            format!("allow a device for '{}' that can deliver this volume", stock.name)
+            format!(
+                "allow a device for '{}' that can deliver this volume",
+                stock.name
+            )
         } else {
             format!(
                 "the timing volume must be the same deliverable volume in every run; nearest: {}",
@@ -253,7 +258,11 @@ fn trim_ml(litres: f64) -> String {
 }
 
 /// Nearest volumes below and above `v` that the allowed devices deliver in one addition.
-fn nearest_deliverable(v: f64, allowed: &[usize], devices: &[Device]) -> (Option<f64>, Option<f64>) {
+fn nearest_deliverable(
+    v: f64,
+    allowed: &[usize],
+    devices: &[Device],
+) -> (Option<f64>, Option<f64>) {
     let mut below: Option<f64> = None;
     let mut above: Option<f64> = None;
     for &d in allowed {
@@ -338,7 +347,9 @@ impl<'a> RunModel<'a> {
                     .iter()
                     .map(|&s| spec.stocks[s].ionic_strength())
                     .collect(),
-                constant: constant_of(&|s| spec.stocks.get(s).map_or(0.0, |st| st.ionic_strength())),
+                constant: constant_of(&|s| {
+                    spec.stocks.get(s).map_or(0.0, |st| st.ionic_strength())
+                }),
                 span: hold.span.clone(),
             });
         }
@@ -437,7 +448,10 @@ struct IntegerOutcome {
     max_dev: f64,
 }
 
-fn solve_integer(m: &RunModel, stage: Stage) -> std::result::Result<IntegerOutcome, ResolutionError> {
+fn solve_integer(
+    m: &RunModel,
+    stage: Stage,
+) -> std::result::Result<IntegerOutcome, ResolutionError> {
     let spec = m.spec;
     let mut vars = ProblemVariables::new();
     let mut cons = Vec::new();
@@ -446,14 +460,22 @@ fn solve_integer(m: &RunModel, stage: Stage) -> std::result::Result<IntegerOutco
         .iter()
         .map(|&s| delivery_vars(&mut vars, &spec.stocks[s].devices, &spec.devices, &mut cons))
         .collect();
-    let water = delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons);
+    // Split water is two additions, one per vessel; otherwise one.
+    let water_parts = if spec.water_vessel == WaterVessel::Split {
+        2
+    } else {
+        1
+    };
+    let waters: Vec<DeliveryVars> = (0..water_parts)
+        .map(|_| delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons))
+        .collect();
     let z = vars.add(variable().min(0.0));
     let mut objective = Expression::from(0.0);
     let mut sum_dev = Expression::from(0.0);
     let total = m.total_ml();
 
-    let mut volume_sum = water.volume.clone();
-    for dv in &stock_vars {
+    let mut volume_sum = Expression::from(0.0);
+    for dv in stock_vars.iter().chain(&waters) {
         volume_sum += dv.volume.clone();
     }
     cons.push(volume_sum.eq(m.free_ml));
@@ -481,14 +503,17 @@ fn solve_integer(m: &RunModel, stage: Stage) -> std::result::Result<IntegerOutco
         Stage::SumDeviation(zmax) => {
             cons.push(Expression::from(z).leq(zmax + 1e-9 + zmax * 1e-9));
             objective += sum_dev;
-            for dv in stock_vars.iter().chain(std::iter::once(&water)) {
+            for dv in stock_vars.iter().chain(&waters) {
                 for (y, pref) in &dv.choices {
                     objective += (1e-7 * (1.0 + pref)) * *y;
                 }
             }
         }
     }
-    let mut model = vars.minimise(objective).using(microlp).with_time_limit(TIME_LIMIT_S);
+    let mut model = vars
+        .minimise(objective)
+        .using(microlp)
+        .with_time_limit(TIME_LIMIT_S);
     for c in cons {
         model = model.with(c);
     }
@@ -514,7 +539,10 @@ fn solve_integer(m: &RunModel, stage: Stage) -> std::result::Result<IntegerOutco
             delivery,
         });
     }
-    let delivery = read(&water);
+    let mut delivery = Delivery::none();
+    for w in &waters {
+        delivery.parts.extend(read(w).parts);
+    }
     additions.push(Addition {
         stock: None,
         volume: delivery.volume(&spec.devices),
@@ -536,7 +564,12 @@ fn solve_continuous(m: &RunModel) -> std::result::Result<(f64, Vec<f64>), Resolu
         .iter()
         .map(|&s| vars.add(variable().min(0.0).max(m.cap_ml(&spec.stocks[s].devices))))
         .collect();
-    let water_cap = m.cap_ml(&spec.water_devices);
+    let water_parts = if spec.water_vessel == WaterVessel::Split {
+        2.0
+    } else {
+        1.0
+    };
+    let water_cap = (m.cap_ml(&spec.water_devices) * water_parts).min(m.free_ml);
     let z = vars.add(variable().min(0.0));
     let mut model = vars.minimise(z).using(microlp);
     let used: Expression = vols.iter().copied().sum();
@@ -626,7 +659,11 @@ fn find_water(m: &RunModel, stocks: &[Addition]) -> Result<Addition> {
     if w.abs() < 1e-12 {
         w = 0.0;
     }
-    let delivery = find_delivery(w, &spec.water_devices, &spec.devices).ok_or_else(|| Error::Solver {
+    let delivery = match spec.water_vessel {
+        WaterVessel::Split => find_delivery_in_two(w, &spec.water_devices, &spec.devices),
+        WaterVessel::Only(_) => find_delivery(w, &spec.water_devices, &spec.devices),
+    };
+    let delivery = delivery.ok_or_else(|| Error::Solver {
         run: m.run.name.clone(),
         reason: format!("water {} mL is not deliverable after rounding", trim_ml(w)),
     })?;
@@ -638,7 +675,12 @@ fn find_water(m: &RunModel, stocks: &[Addition]) -> Result<Addition> {
 }
 
 /// Achieved concentrations, deviations and ionic strength of a finished recipe.
-pub fn evaluate(spec: &Spec, run: &Run, additions: Vec<Addition>, ionic: Option<f64>) -> RunSolution {
+pub fn evaluate(
+    spec: &Spec,
+    run: &Run,
+    additions: Vec<Addition>,
+    ionic: Option<f64>,
+) -> RunSolution {
     let total = spec.total_volume;
     let mut concentrations: Vec<(String, f64)> = Vec::new();
     let mut ionic_strength = 0.0;
@@ -780,7 +822,9 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
                     "use a stronger stock, a smaller total volume, or a lower target".to_string(),
                 ),
             };
-            return spec.source.error(g.span.clone(), message, "out of reach", help);
+            return spec
+                .source
+                .error(g.span.clone(), message, "out of reach", help);
         }
         if g.target < least_c * (1.0 - spec.tolerance) {
             return spec.source.error(
@@ -807,7 +851,11 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
         {
             let v = ((g.target * total - g.constant) / a).max(0.0);
             sum_needed += v;
-            needed.push(format!("{} mL of '{}'", trim_ml(v * 1e-3), spec.stocks[m.vary[i]].name));
+            needed.push(format!(
+                "{} mL of '{}'",
+                trim_ml(v * 1e-3),
+                spec.stocks[m.vary[i]].name
+            ));
         }
     }
     if sum_needed > m.free_ml * (1.0 + spec.tolerance) {
@@ -999,7 +1047,12 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         let r1 = &sol.runs[0];
         assert_relative_eq!(r1.volume_of(1), 5.0e-3, epsilon = 1e-12);
         assert_relative_eq!(r1.volume_of(3), 10.0e-3, epsilon = 1e-12);
-        let cl = r1.concentrations.iter().find(|(s, _)| s == "Cl-").unwrap().1;
+        let cl = r1
+            .concentrations
+            .iter()
+            .find(|(s, _)| s == "Cl-")
+            .unwrap()
+            .1;
         // Cl-: (0.100·5 + 0.200·10)/50 = 50.0 mM
         assert_relative_eq!(cl, 0.050, max_relative = 1e-12);
     }

@@ -334,7 +334,13 @@ fn inner(span: Range<usize>, text: &str) -> Range<usize> {
 }
 
 impl Checker<'_> {
-    fn err(&self, span: Range<usize>, msg: impl Into<String>, label: &str, help: impl Into<String>) -> Error {
+    fn err(
+        &self,
+        span: Range<usize>,
+        msg: impl Into<String>,
+        label: &str,
+        help: impl Into<String>,
+    ) -> Error {
         self.src.error(span, msg, label, help)
     }
 
@@ -345,25 +351,40 @@ impl Checker<'_> {
             Value::String(s) => units::parse(s, kind).map_err(|e| {
                 let inner = inner(span.clone(), &self.src.text);
                 let r = e.range(s.len());
-                let at = if r.is_empty() { inner.clone() } else { inner.start + r.start..inner.start + r.end };
+                let at = if r.is_empty() {
+                    inner.clone()
+                } else {
+                    inner.start + r.start..inner.start + r.end
+                };
                 self.err(
                     at,
                     format!("{field}: {}", e.describe(kind)),
                     "here",
-                    format!("write {} with its unit, e.g. {field} = {}", kind.noun(), kind.example()),
+                    format!(
+                        "write {} with its unit, e.g. {field} = {}",
+                        kind.noun(),
+                        kind.example()
+                    ),
                 )
             }),
             Value::Integer(_) | Value::Float(_) => Err(self.err(
                 span,
                 format!("{field}: a bare number has no unit"),
                 "no unit",
-                format!("write {} as a string with its unit, e.g. {field} = {}", kind.noun(), kind.example()),
+                format!(
+                    "write {} as a string with its unit, e.g. {field} = {}",
+                    kind.noun(),
+                    kind.example()
+                ),
             )),
             _ => Err(self.err(
                 span,
                 format!("{field}: expected {}", kind.noun()),
                 "not a quantity",
-                format!("write it as a string with its unit, e.g. {field} = {}", kind.example()),
+                format!(
+                    "write it as a string with its unit, e.g. {field} = {}",
+                    kind.example()
+                ),
             )),
         }
     }
@@ -424,7 +445,12 @@ impl Checker<'_> {
         let plan = raw.plan.get_ref();
         let title = plan.title.get_ref().trim().to_string();
         if title.is_empty() {
-            return Err(self.err(plan.title.span(), "the plan title is empty", "empty", "e.g. title = \"Section 3 rate law\""));
+            return Err(self.err(
+                plan.title.span(),
+                "the plan title is empty",
+                "empty",
+                "e.g. title = \"Section 3 rate law\"",
+            ));
         }
         let total_volume = self.positive(&plan.total_volume, Kind::Volume, "total_volume")?;
         let stations = self.count(&plan.stations, "stations", 1)?;
@@ -434,7 +460,12 @@ impl Checker<'_> {
             Some(q) => {
                 let v = self.qty(q, Kind::Fraction, "overage")?;
                 if !(0.0..=2.0).contains(&v) {
-                    return Err(self.err(inner(q.span(), &self.src.text), "overage must be from 0 % to 200 %", "out of range", "e.g. overage = \"15 %\""));
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "overage must be from 0 % to 200 %",
+                        "out of range",
+                        "e.g. overage = \"15 %\"",
+                    ));
                 }
                 v
             }
@@ -444,7 +475,12 @@ impl Checker<'_> {
             Some(q) => {
                 let v = self.positive(q, Kind::Fraction, "tolerance")?;
                 if v > 0.5 {
-                    return Err(self.err(inner(q.span(), &self.src.text), "tolerance must be at most 50 %", "too large", "e.g. tolerance = \"1 %\""));
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "tolerance must be at most 50 %",
+                        "too large",
+                        "e.g. tolerance = \"1 %\"",
+                    ));
                 }
                 v
             }
@@ -482,8 +518,16 @@ impl Checker<'_> {
         let mut device_index: HashMap<String, usize> = HashMap::new();
         for d in &raw.device {
             let dev = self.device(d.get_ref(), d.span())?;
-            if device_index.insert(dev.name.clone(), devices.len()).is_some() {
-                return Err(self.err(inner(d.get_ref().name.span(), &self.src.text), format!("two devices are named '{}'", dev.name), "duplicate", "give each device its own name"));
+            if device_index
+                .insert(dev.name.clone(), devices.len())
+                .is_some()
+            {
+                return Err(self.err(
+                    inner(d.get_ref().name.span(), &self.src.text),
+                    format!("two devices are named '{}'", dev.name),
+                    "duplicate",
+                    "give each device its own name",
+                ));
             }
             devices.push(dev);
         }
@@ -497,20 +541,35 @@ impl Checker<'_> {
                 Some(list) => {
                     let mut out = Vec::new();
                     for n in list {
-                        let i = device_index.get(n.get_ref().trim()).copied().ok_or_else(|| {
-                            self.err(
-                                inner(n.span(), &self.src.text),
-                                format!("unknown device '{}'", n.get_ref()),
-                                "not a [[device]] name",
-                                format!("use one of: {}", devices.iter().map(|d| format!("\"{}\"", d.name)).collect::<Vec<_>>().join(", ")),
-                            )
-                        })?;
+                        let i = device_index
+                            .get(n.get_ref().trim())
+                            .copied()
+                            .ok_or_else(|| {
+                                self.err(
+                                    inner(n.span(), &self.src.text),
+                                    format!("unknown device '{}'", n.get_ref()),
+                                    "not a [[device]] name",
+                                    format!(
+                                        "use one of: {}",
+                                        devices
+                                            .iter()
+                                            .map(|d| format!("\"{}\"", d.name))
+                                            .collect::<Vec<_>>()
+                                            .join(", ")
+                                    ),
+                                )
+                            })?;
                         if !out.contains(&i) {
                             out.push(i);
                         }
                     }
                     if out.is_empty() {
-                        return Err(self.err(0..0, "an empty device list allows nothing", "", "list at least one device, or leave the key out to allow all"));
+                        return Err(self.err(
+                            0..0,
+                            "an empty device list allows nothing",
+                            "",
+                            "list at least one device, or leave the key out to allow all",
+                        ));
                     }
                     Ok(out)
                 }
@@ -523,22 +582,43 @@ impl Checker<'_> {
             let r = s.get_ref();
             let name = r.name.get_ref().trim().to_string();
             if name.is_empty() {
-                return Err(self.err(r.name.span(), "a stock has an empty name", "empty", "name it after what is in the bottle, e.g. \"KI 0.0150 M\""));
+                return Err(self.err(
+                    r.name.span(),
+                    "a stock has an empty name",
+                    "empty",
+                    "name it after what is in the bottle, e.g. \"KI 0.0150 M\"",
+                ));
             }
             if name.eq_ignore_ascii_case("water") {
-                return Err(self.err(inner(r.name.span(), &self.src.text), "'water' is the make-up and is not a stock", "reserved", "leave water out of [[stock]]; use [water] to restrict its devices"));
+                return Err(self.err(
+                    inner(r.name.span(), &self.src.text),
+                    "'water' is the make-up and is not a stock",
+                    "reserved",
+                    "leave water out of [[stock]]; use [water] to restrict its devices",
+                ));
             }
             if stocks.iter().any(|o| o.name == name) {
-                return Err(self.err(inner(r.name.span(), &self.src.text), format!("two stocks are named '{name}'"), "duplicate", "give each stock its own name"));
+                return Err(self.err(
+                    inner(r.name.span(), &self.src.text),
+                    format!("two stocks are named '{name}'"),
+                    "duplicate",
+                    "give each stock its own name",
+                ));
             }
             let mut contains = Vec::new();
             if let Some(c) = &r.contains {
                 for (k, q) in &c.get_ref().0 {
                     let sp = self.species(k)?;
                     if contains.iter().any(|(o, _): &(String, f64)| *o == sp) {
-                        return Err(self.err(inner(k.span(), &self.src.text), format!("stock '{name}' names {sp} twice"), "duplicate", "list each species once"));
+                        return Err(self.err(
+                            inner(k.span(), &self.src.text),
+                            format!("stock '{name}' names {sp} twice"),
+                            "duplicate",
+                            "list each species once",
+                        ));
                     }
-                    let c = self.positive(q, Kind::Concentration, &format!("stock '{name}', {sp}"))?;
+                    let c =
+                        self.positive(q, Kind::Concentration, &format!("stock '{name}', {sp}"))?;
                     contains.push((sp, c));
                 }
             }
@@ -568,35 +648,51 @@ impl Checker<'_> {
             });
         }
         if stocks.is_empty() {
-            return Err(self.err(0..0, "the spec lists no stocks", "", "add a [[stock]] for each bottle on the shelf"));
+            return Err(self.err(
+                0..0,
+                "the spec lists no stocks",
+                "",
+                "add a [[stock]] for each bottle on the shelf",
+            ));
         }
-        let known: BTreeSet<&str> = stocks.iter().flat_map(|s| s.contains.iter().map(|(sp, _)| sp.as_str())).collect();
+        let known: BTreeSet<&str> = stocks
+            .iter()
+            .flat_map(|s| s.contains.iter().map(|(sp, _)| sp.as_str()))
+            .collect();
         let unknown_species = |name: &Name, sp: &str| {
             self.err(
                 inner(name.span(), &self.src.text),
                 format!("no stock contains {sp}"),
                 "unknown species",
-                format!("species in the stocks: {}", known.iter().copied().collect::<Vec<_>>().join(", ")),
+                format!(
+                    "species in the stocks: {}",
+                    known.iter().copied().collect::<Vec<_>>().join(", ")
+                ),
             )
         };
 
         // Timing reagent
         let t = raw.timing.get_ref();
         let timing_species = self.species(&t.species)?;
-        let timing_conc = self.positive(&t.concentration, Kind::Concentration, "timing concentration")?;
-        let holders: Vec<usize> = (0..stocks.len()).filter(|&i| stocks[i].concentration_of(&timing_species) > 0.0).collect();
-        let timing_stock = match holders.as_slice() {
-            [] => return Err(unknown_species(&t.species, &timing_species)),
-            [one] => *one,
-            [_, second, ..] => {
-                return Err(self.err(
+        let timing_conc = self.positive(
+            &t.concentration,
+            Kind::Concentration,
+            "timing concentration",
+        )?;
+        let holders: Vec<usize> = (0..stocks.len())
+            .filter(|&i| stocks[i].concentration_of(&timing_species) > 0.0)
+            .collect();
+        let timing_stock =
+            match holders.as_slice() {
+                [] => return Err(unknown_species(&t.species, &timing_species)),
+                [one] => *one,
+                [_, second, ..] => return Err(self.err(
                     stocks[*second].name_span.clone(),
                     format!("the timing species {timing_species} is in more than one stock"),
                     "a second source",
                     "keep the timing reagent in one stock, so every run gets the same volume of it",
-                ))
-            }
-        };
+                )),
+            };
 
         // Water
         let (water_devices, water_vessel) = match &raw.water {
@@ -604,7 +700,9 @@ impl Checker<'_> {
             Some(w) => {
                 let vessel = match &w.vessel {
                     None => WaterVessel::Split,
-                    Some(v) if v.get_ref().trim().eq_ignore_ascii_case("split") => WaterVessel::Split,
+                    Some(v) if v.get_ref().trim().eq_ignore_ascii_case("split") => {
+                        WaterVessel::Split
+                    }
                     Some(v) => WaterVessel::Only(self.vessel(v)?),
                 };
                 (resolve_devices(&w.devices)?, vessel)
@@ -613,7 +711,11 @@ impl Checker<'_> {
 
         // Mixing
         let mixing = match &raw.mixing {
-            None => Mixing { keep_apart: Vec::new(), span: None, poured: Vessel::B },
+            None => Mixing {
+                keep_apart: Vec::new(),
+                span: None,
+                poured: Vessel::B,
+            },
             Some(m) => {
                 let mut groups = Vec::new();
                 for g in &m.keep_apart {
@@ -626,7 +728,12 @@ impl Checker<'_> {
                         group.push(sp);
                     }
                     if group.len() < 2 {
-                        return Err(self.err(g.span(), "a keep_apart group needs at least two species", "too short", "e.g. keep_apart = [[\"BrO3-\", \"I-\", \"H+\"]]"));
+                        return Err(self.err(
+                            g.span(),
+                            "a keep_apart group needs at least two species",
+                            "too short",
+                            "e.g. keep_apart = [[\"BrO3-\", \"I-\", \"H+\"]]",
+                        ));
                     }
                     groups.push(group);
                 }
@@ -636,11 +743,20 @@ impl Checker<'_> {
                         "B into A" => Vessel::B,
                         "A into B" => Vessel::A,
                         other => {
-                            return Err(self.err(inner(p.span(), &self.src.text), format!("unknown pour order '{other}'"), "here", "write pour = \"B into A\" or pour = \"A into B\""))
+                            return Err(self.err(
+                                inner(p.span(), &self.src.text),
+                                format!("unknown pour order '{other}'"),
+                                "here",
+                                "write pour = \"B into A\" or pour = \"A into B\"",
+                            ))
                         }
                     },
                 };
-                Mixing { keep_apart: groups, span: m.keep_apart.first().map(|g| g.span()), poured }
+                Mixing {
+                    keep_apart: groups,
+                    span: m.keep_apart.first().map(|g| g.span()),
+                    poured,
+                }
             }
         };
 
@@ -653,16 +769,38 @@ impl Checker<'_> {
                     Value::String(s) if s.trim() == "max" => IonicTarget::Max,
                     _ => IonicTarget::Value(self.positive(&r.hold, Kind::Concentration, "hold")?),
                 };
-                let stock = stocks.iter().position(|s| s.name == r.using.get_ref().trim()).ok_or_else(|| {
-                    self.err(inner(r.using.span(), &self.src.text), format!("unknown stock '{}'", r.using.get_ref()), "not a [[stock]] name", "name the inert salt stock, e.g. using = \"KNO3 1.00 M\"")
-                })?;
+                let stock = stocks
+                    .iter()
+                    .position(|s| s.name == r.using.get_ref().trim())
+                    .ok_or_else(|| {
+                        self.err(
+                            inner(r.using.span(), &self.src.text),
+                            format!("unknown stock '{}'", r.using.get_ref()),
+                            "not a [[stock]] name",
+                            "name the inert salt stock, e.g. using = \"KNO3 1.00 M\"",
+                        )
+                    })?;
                 if stocks[stock].ionic_strength() <= 0.0 {
-                    return Err(self.err(inner(r.using.span(), &self.src.text), format!("stock '{}' holds no ions", stocks[stock].name), "no ions", "use a salt stock whose species carry charges, e.g. \"K+\" and \"NO3-\""));
+                    return Err(self.err(
+                        inner(r.using.span(), &self.src.text),
+                        format!("stock '{}' holds no ions", stocks[stock].name),
+                        "no ions",
+                        "use a salt stock whose species carry charges, e.g. \"K+\" and \"NO3-\"",
+                    ));
                 }
                 if stock == timing_stock || stocks[stock].fixed_volume.is_some() {
-                    return Err(self.err(inner(r.using.span(), &self.src.text), "the inert salt must be a stock whose volume may vary", "fixed volume", "use a separate salt stock such as KNO3 or NaNO3"));
+                    return Err(self.err(
+                        inner(r.using.span(), &self.src.text),
+                        "the inert salt must be a stock whose volume may vary",
+                        "fixed volume",
+                        "use a separate salt stock such as KNO3 or NaNO3",
+                    ));
                 }
-                Some(IonicHold { target, stock, span: i.span() })
+                Some(IonicHold {
+                    target,
+                    stock,
+                    span: i.span(),
+                })
             }
         };
 
@@ -672,10 +810,20 @@ impl Checker<'_> {
             let rr = r.get_ref();
             let name = rr.name.get_ref().trim().to_string();
             if name.is_empty() {
-                return Err(self.err(rr.name.span(), "a run has an empty name", "empty", "e.g. name = \"iodide doubled\""));
+                return Err(self.err(
+                    rr.name.span(),
+                    "a run has an empty name",
+                    "empty",
+                    "e.g. name = \"iodide doubled\"",
+                ));
             }
             if runs.iter().any(|o| o.name == name) {
-                return Err(self.err(inner(rr.name.span(), &self.src.text), format!("two runs are named '{name}'"), "duplicate", "give each run its own name"));
+                return Err(self.err(
+                    inner(rr.name.span(), &self.src.text),
+                    format!("two runs are named '{name}'"),
+                    "duplicate",
+                    "give each run its own name",
+                ));
             }
             let entries = &rr.targets.get_ref().0;
             if entries.is_empty() {
@@ -688,18 +836,44 @@ impl Checker<'_> {
                     return Err(unknown_species(k, &sp));
                 }
                 if sp == timing_species {
-                    return Err(self.err(inner(k.span(), &self.src.text), format!("{sp} is the timing species; its concentration is set once in [timing]"), "fixed in every run", "remove it from the run's targets"));
+                    return Err(self.err(
+                        inner(k.span(), &self.src.text),
+                        format!(
+                            "{sp} is the timing species; its concentration is set once in [timing]"
+                        ),
+                        "fixed in every run",
+                        "remove it from the run's targets",
+                    ));
                 }
                 if targets.iter().any(|t: &Target| t.species == sp) {
-                    return Err(self.err(inner(k.span(), &self.src.text), format!("run '{name}' names {sp} twice"), "duplicate", "list each species once"));
+                    return Err(self.err(
+                        inner(k.span(), &self.src.text),
+                        format!("run '{name}' names {sp} twice"),
+                        "duplicate",
+                        "list each species once",
+                    ));
                 }
                 let c = self.positive(q, Kind::Concentration, &format!("run '{name}', {sp}"))?;
-                targets.push(Target { species: sp, concentration: c, span: inner(q.span(), &self.src.text) });
+                targets.push(Target {
+                    species: sp,
+                    concentration: c,
+                    span: inner(q.span(), &self.src.text),
+                });
             }
-            runs.push(Run { name, targets, note: rr.note.clone(), span: r.span() });
+            runs.push(Run {
+                name,
+                targets,
+                note: rr.note.clone(),
+                span: r.span(),
+            });
         }
         if runs.is_empty() {
-            return Err(self.err(0..0, "the spec lists no runs", "", "add a [[run]] with a name and targets for each concentration set"));
+            return Err(self.err(
+                0..0,
+                "the spec lists no runs",
+                "",
+                "add a [[run]] with a name and targets for each concentration set",
+            ));
         }
         let first: BTreeSet<&str> = runs[0].targets.iter().map(|t| t.species.as_str()).collect();
         for (r, raw_run) in runs.iter().zip(&raw.run).skip(1) {
@@ -726,7 +900,12 @@ impl Checker<'_> {
             temperature,
             tolerance,
             flasks,
-            timing: Timing { species: timing_species, concentration: timing_conc, stock: timing_stock, span: inner(t.concentration.span(), &self.src.text) },
+            timing: Timing {
+                species: timing_species,
+                concentration: timing_conc,
+                stock: timing_stock,
+                span: inner(t.concentration.span(), &self.src.text),
+            },
             stocks,
             devices,
             water_devices,
@@ -740,20 +919,40 @@ impl Checker<'_> {
     fn device(&self, r: &RawDevice, span: Range<usize>) -> Result<Device> {
         let name = r.name.get_ref().trim().to_string();
         if name.is_empty() {
-            return Err(self.err(r.name.span(), "a device has an empty name", "empty", "e.g. name = \"25 mL buret\""));
+            return Err(self.err(
+                r.name.span(),
+                "a device has an empty name",
+                "empty",
+                "e.g. name = \"25 mL buret\"",
+            ));
         }
         let kind = DeviceKind::parse(r.kind.get_ref()).ok_or_else(|| {
-            self.err(inner(r.kind.span(), &self.src.text), format!("unknown kind of device '{}'", r.kind.get_ref()), "unknown kind", format!("use {}", DeviceKind::ACCEPTED))
+            self.err(
+                inner(r.kind.span(), &self.src.text),
+                format!("unknown kind of device '{}'", r.kind.get_ref()),
+                "unknown kind",
+                format!("use {}", DeviceKind::ACCEPTED),
+            )
         })?;
         let need = |q: &Option<Q>, field: &str, example: &str| -> Result<f64> {
             match q {
                 Some(q) => self.positive(q, Kind::Volume, field),
-                None => Err(self.err(span.clone(), format!("device '{name}' ({kind}) needs {field}"), "incomplete device", format!("add e.g. {field} = {example}"))),
+                None => Err(self.err(
+                    span.clone(),
+                    format!("device '{name}' ({kind}) needs {field}"),
+                    "incomplete device",
+                    format!("add e.g. {field} = {example}"),
+                )),
             }
         };
         let forbid = |q: &Option<Q>, field: &str| -> Result<()> {
             match q {
-                Some(q) => Err(self.err(q.span(), format!("{field} does not apply to a {kind}"), "not for this kind", "remove it; the README lists the keys of each kind of device")),
+                Some(q) => Err(self.err(
+                    q.span(),
+                    format!("{field} does not apply to a {kind}"),
+                    "not for this kind",
+                    "remove it; the README lists the keys of each kind of device",
+                )),
                 None => Ok(()),
             }
         };
@@ -762,7 +961,14 @@ impl Checker<'_> {
             Some(c) => Some(match c.get_ref().trim() {
                 "A" => Class::A,
                 "B" => Class::B,
-                other => return Err(self.err(inner(c.span(), &self.src.text), format!("unknown tolerance class '{other}'"), "not A or B", "write class = \"A\" or class = \"B\"")),
+                other => {
+                    return Err(self.err(
+                        inner(c.span(), &self.src.text),
+                        format!("unknown tolerance class '{other}'"),
+                        "not A or B",
+                        "write class = \"A\" or class = \"B\"",
+                    ))
+                }
             }),
         };
         let (step, min, max, max_fills) = match kind {
@@ -772,13 +978,25 @@ impl Checker<'_> {
                 forbid(&r.step, "step")?;
                 forbid(&r.min, "min")?;
                 if let Some(rg) = &r.range {
-                    return Err(self.err(rg.span(), format!("range does not apply to a {kind}"), "not for this kind", "a volumetric pipet has one volume"));
+                    return Err(self.err(
+                        rg.span(),
+                        format!("range does not apply to a {kind}"),
+                        "not for this kind",
+                        "a volumetric pipet has one volume",
+                    ));
                 }
                 let v = need(&r.volume, "volume", "\"10 mL\"")?;
                 let fills = match &r.fills {
                     None => 1,
                     Some(f) if (1..=20).contains(f.get_ref()) => *f.get_ref() as u32,
-                    Some(f) => return Err(self.err(f.span(), "fills must be a whole number from 1 to 20", "out of range", "fills = 2 lets one addition take two fills of this pipet")),
+                    Some(f) => {
+                        return Err(self.err(
+                            f.span(),
+                            "fills must be a whole number from 1 to 20",
+                            "out of range",
+                            "fills = 2 lets one addition take two fills of this pipet",
+                        ))
+                    }
                 };
                 (v, v, v * fills as f64, fills)
             }
@@ -787,14 +1005,31 @@ impl Checker<'_> {
                 forbid(&r.graduation, "graduation")?;
                 forbid(&r.volume, "volume")?;
                 forbid(&r.min, "min")?;
-                let rg = r.range.as_ref().ok_or_else(|| self.err(span.clone(), format!("device '{name}' (piston pipette) needs range"), "incomplete device", "add e.g. range = [\"100 uL\", \"1000 uL\"]"))?;
+                let rg = r.range.as_ref().ok_or_else(|| {
+                    self.err(
+                        span.clone(),
+                        format!("device '{name}' (piston pipette) needs range"),
+                        "incomplete device",
+                        "add e.g. range = [\"100 uL\", \"1000 uL\"]",
+                    )
+                })?;
                 let [lo, hi] = rg.get_ref().as_slice() else {
-                    return Err(self.err(rg.span(), "range needs two volumes: smallest and largest", "here", "e.g. range = [\"100 uL\", \"1000 uL\"]"));
+                    return Err(self.err(
+                        rg.span(),
+                        "range needs two volumes: smallest and largest",
+                        "here",
+                        "e.g. range = [\"100 uL\", \"1000 uL\"]",
+                    ));
                 };
                 let lo = self.positive(lo, Kind::Volume, "range")?;
                 let hi = self.positive(hi, Kind::Volume, "range")?;
                 if lo > hi {
-                    return Err(self.err(rg.span(), "range runs from larger to smaller", "reversed", "write the smallest volume first"));
+                    return Err(self.err(
+                        rg.span(),
+                        "range runs from larger to smaller",
+                        "reversed",
+                        "write the smallest volume first",
+                    ));
                 }
                 let step = need(&r.step, "step", "\"1 uL\"")?;
                 (step, lo, hi, 1)
@@ -803,16 +1038,30 @@ impl Checker<'_> {
                 forbid(&r.volume, "volume")?;
                 forbid(&r.step, "step")?;
                 if let Some(rg) = &r.range {
-                    return Err(self.err(rg.span(), format!("range does not apply to a {kind}"), "not for this kind", "give capacity and graduation instead"));
+                    return Err(self.err(
+                        rg.span(),
+                        format!("range does not apply to a {kind}"),
+                        "not for this kind",
+                        "give capacity and graduation instead",
+                    ));
                 }
                 if let Some(f) = &r.fills {
-                    return Err(self.err(f.span(), format!("fills does not apply to a {kind}"), "not for this kind", "only volumetric pipets are refilled for one addition"));
+                    return Err(self.err(
+                        f.span(),
+                        format!("fills does not apply to a {kind}"),
+                        "not for this kind",
+                        "only volumetric pipets are refilled for one addition",
+                    ));
                 }
                 let cap = need(&r.capacity, "capacity", "\"25 mL\"")?;
                 let grad = need(&r.graduation, "graduation", "\"0.05 mL\"")?;
                 // A graduated cylinder is not read below about a tenth of its capacity
                 // (common practice); other graduated glassware down to one graduation.
-                let default_min = if kind == DeviceKind::GraduatedCylinder { cap / 10.0 } else { grad };
+                let default_min = if kind == DeviceKind::GraduatedCylinder {
+                    cap / 10.0
+                } else {
+                    grad
+                };
                 let min = match &r.min {
                     None => default_min,
                     Some(q) => self.positive(q, Kind::Volume, "min")?,
@@ -821,15 +1070,38 @@ impl Checker<'_> {
             }
         };
         if step > max * (1.0 + 1e-12) {
-            return Err(self.err(span, format!("device '{name}': its step is larger than its capacity"), "inconsistent device", "check the graduation or step against the capacity or range"));
+            return Err(self.err(
+                span,
+                format!("device '{name}': its step is larger than its capacity"),
+                "inconsistent device",
+                "check the graduation or step against the capacity or range",
+            ));
         }
         if max / step > 200_000.0 {
-            return Err(self.err(span, format!("device '{name}': more than 200000 steps between zero and its capacity"), "step too fine", "give the graduation you can actually read, e.g. graduation = \"0.05 mL\""));
+            return Err(self.err(
+                span,
+                format!("device '{name}': more than 200000 steps between zero and its capacity"),
+                "step too fine",
+                "give the graduation you can actually read, e.g. graduation = \"0.05 mL\"",
+            ));
         }
         if min > max {
-            return Err(self.err(span, format!("device '{name}': min is larger than its capacity"), "inconsistent device", "lower min"));
+            return Err(self.err(
+                span,
+                format!("device '{name}': min is larger than its capacity"),
+                "inconsistent device",
+                "lower min",
+            ));
         }
-        Ok(Device { name, kind, class, step, min, max, max_fills })
+        Ok(Device {
+            name,
+            kind,
+            class,
+            step,
+            min,
+            max,
+            max_fills,
+        })
     }
 }
 

@@ -50,11 +50,24 @@ impl fmt::Display for Kind {
 #[derive(Debug, Clone, PartialEq)]
 pub enum UnitError {
     Empty,
-    BadNumber { at: Range<usize> },
-    NotFinite { at: Range<usize> },
-    MissingUnit { at: Range<usize> },
-    UnknownUnit { unit: String, at: Range<usize> },
-    WrongKind { unit: String, found: Kind, at: Range<usize> },
+    BadNumber {
+        at: Range<usize>,
+    },
+    NotFinite {
+        at: Range<usize>,
+    },
+    MissingUnit {
+        at: Range<usize>,
+    },
+    UnknownUnit {
+        unit: String,
+        at: Range<usize>,
+    },
+    WrongKind {
+        unit: String,
+        found: Kind,
+        at: Range<usize>,
+    },
 }
 
 impl UnitError {
@@ -84,8 +97,16 @@ impl UnitError {
     }
 }
 
+/// A quantity text split into its number and unit, with their byte ranges.
+struct Parts<'a> {
+    value: f64,
+    number_at: Range<usize>,
+    unit: &'a str,
+    unit_at: Range<usize>,
+}
+
 /// Split "2.50 mM" into its number (with range) and unit text (with range).
-fn split_number(text: &str) -> Result<(f64, Range<usize>, &str, Range<usize>), UnitError> {
+fn split_number(text: &str) -> Result<Parts<'_>, UnitError> {
     let lead = text.len() - text.trim_start().len();
     let body = text.trim();
     if body.is_empty() {
@@ -122,9 +143,7 @@ fn split_number(text: &str) -> Result<(f64, Range<usize>, &str, Range<usize>), U
         || lower.starts_with("+inf")
         || lower.starts_with("-inf")
     {
-        let word = body
-            .find(|c: char| c.is_whitespace())
-            .unwrap_or(body.len());
+        let word = body.find(|c: char| c.is_whitespace()).unwrap_or(body.len());
         return Err(UnitError::NotFinite {
             at: lead..lead + word,
         });
@@ -139,7 +158,12 @@ fn split_number(text: &str) -> Result<(f64, Range<usize>, &str, Range<usize>), U
     let unit_lead = rest.len() - rest.trim_start().len();
     let unit = rest.trim();
     let unit_start = lead + end + unit_lead;
-    Ok((value, num_range, unit, unit_start..unit_start + unit.len()))
+    Ok(Parts {
+        value,
+        number_at: num_range,
+        unit,
+        unit_at: unit_start..unit_start + unit.len(),
+    })
 }
 
 /// Look a unit up: its kind, and the factor and offset to the internal unit.
@@ -174,29 +198,29 @@ pub struct Quantity {
 
 /// Parse a quantity of any kind.
 pub fn parse_any(text: &str) -> Result<Quantity, UnitError> {
-    let (value, num_range, unit, unit_range) = split_number(text)?;
-    if unit.is_empty() {
-        return Err(UnitError::MissingUnit { at: num_range });
+    let p = split_number(text)?;
+    if p.unit.is_empty() {
+        return Err(UnitError::MissingUnit { at: p.number_at });
     }
-    let (kind, factor, offset) = unit_info(unit).ok_or_else(|| UnitError::UnknownUnit {
-        unit: unit.to_string(),
-        at: unit_range.clone(),
+    let (kind, factor, offset) = unit_info(p.unit).ok_or_else(|| UnitError::UnknownUnit {
+        unit: p.unit.to_string(),
+        at: p.unit_at.clone(),
     })?;
     Ok(Quantity {
-        value: value * factor + offset,
+        value: p.value * factor + offset,
         kind,
     })
 }
 
 /// Parse a quantity that must be of `expected` kind; the value comes back in internal units.
 pub fn parse(text: &str, expected: Kind) -> Result<f64, UnitError> {
-    let (_, _, unit, unit_range) = split_number(text)?;
+    let p = split_number(text)?;
     let q = parse_any(text)?;
     if q.kind != expected {
         return Err(UnitError::WrongKind {
-            unit: unit.to_string(),
+            unit: p.unit.to_string(),
             found: q.kind,
-            at: unit_range,
+            at: p.unit_at,
         });
     }
     Ok(q.value)

@@ -1,0 +1,134 @@
+//! The command line. The only module that knows about clap; it reads the spec, calls the
+//! library, and decides where bytes and messages go.
+
+use crate::error::{Error, SpecSource};
+use crate::export::{self, Format};
+use clap::{Parser, Subcommand, ValueEnum};
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+/// Exit code: success, nothing flagged.
+pub const EXIT_OK: i32 = 0;
+/// Exit code: the plan was computed, but something is flagged for a look.
+pub const EXIT_FLAGGED: i32 = 1;
+/// Exit code: bad input, or no recipe exists.
+pub const EXIT_ERROR: i32 = 2;
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "clockprep",
+    version,
+    about = "Plan clock-reaction kinetics labs: deliverable stock volumes, mixing sheets and stock totals from one TOML spec",
+    after_help = "Exit codes: 0 all well, 1 computed but flagged, 2 bad input or no recipe."
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Solve every run for deliverable volumes and print the mixing sheet.
+    Plan {
+        /// The plan spec (TOML).
+        spec: PathBuf,
+        /// Output format.
+        #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
+        format: FormatArg,
+        /// Write to this file instead of stdout (atomically; never over the spec).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Replace the output file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+pub enum FormatArg {
+    Text,
+    Csv,
+    Json,
+    Md,
+}
+
+impl From<FormatArg> for Format {
+    fn from(f: FormatArg) -> Format {
+        match f {
+            FormatArg::Text => Format::Text,
+            FormatArg::Csv => Format::Csv,
+            FormatArg::Json => Format::Json,
+            FormatArg::Md => Format::Markdown,
+        }
+    }
+}
+
+fn read_spec(path: &Path) -> Result<SpecSource, Error> {
+    let text = std::fs::read_to_string(path).map_err(|source| Error::ReadSpec {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    Ok(SpecSource::new(path.display().to_string(), text))
+}
+
+fn emit(bytes: &[u8], output: Option<&Path>, force: bool, spec: &Path) -> Result<(), Error> {
+    match output {
+        Some(path) => crate::output::write_file(path, bytes, force, spec),
+        None => {
+            let mut out = std::io::stdout().lock();
+            // A closed pipe (e.g. `| head`) is not an error worth reporting.
+            let _ = out.write_all(bytes).and_then(|_| out.flush());
+            Ok(())
+        }
+    }
+}
+
+/// Run one command; returns the exit code.
+pub fn run(cli: Cli) -> Result<i32, Error> {
+    match cli.command {
+        Command::Plan {
+            spec,
+            format,
+            output,
+            force,
+        } => {
+            let report = crate::plan(read_spec(&spec)?)?;
+            let bytes = export::export(&report, format.into());
+            emit(&bytes, output.as_deref(), force, &spec)?;
+            Ok(if report.flagged {
+                EXIT_FLAGGED
+            } else {
+                EXIT_OK
+            })
+        }
+    }
+}
+
+/// Entry point of the binary: parse arguments, run, report errors with their location.
+pub fn main() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = e.print();
+            return if e.use_stderr() { EXIT_ERROR } else { EXIT_OK };
+        }
+    };
+    let tty = std::io::stderr().is_terminal();
+    let _ = miette::set_hook(Box::new(move |_| {
+        Box::new(
+            miette::MietteHandlerOpts::new()
+                .color(tty)
+                .unicode(tty)
+                .terminal_links(false)
+                .width(100)
+                .build(),
+        )
+    }));
+    match run(cli) {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("{:?}", miette::Report::new(e));
+            EXIT_ERROR
+        }
+    }
+}
