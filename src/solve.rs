@@ -105,19 +105,6 @@ struct Constant {
 /// Solve every run of the plan.
 pub fn solve(spec: &Spec) -> Result<Solution> {
     let constant = constant_additions(spec)?;
-    let free = spec.total_volume - constant.volume;
-    if free < -1e-12 {
-        return Err(spec.source.error(
-            spec.total_span.clone(),
-            format!(
-                "the timing stock and fixed additions ({} mL) exceed the total volume",
-                units::ml(constant.volume, 2)
-            ),
-            "too small",
-            "raise total_volume, or use a more concentrated timing stock",
-        ));
-    }
-
     let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
         None => None,
         Some(IonicTarget::Value(v)) => Some(v),
@@ -172,19 +159,36 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     let stock = &spec.stocks[t.stock];
     let c_stock = stock.concentration_of(&t.species);
     let v_timing = t.concentration * spec.total_volume / c_stock;
-    if v_timing > spec.total_volume {
+    let fixed_sum: f64 = spec.stocks.iter().filter_map(|s| s.fixed_volume).sum();
+    if v_timing + fixed_sum > spec.total_volume * (1.0 + 1e-12) {
+        let (span, what) = if fixed_sum > 0.0 {
+            (
+                spec.total_span.clone(),
+                format!(
+                    "the timing stock ({} mL) and fixed additions ({} mL) add up to more than the whole {} mL run",
+                    trim_ml(v_timing),
+                    trim_ml(fixed_sum),
+                    trim_ml(spec.total_volume)
+                ),
+            )
+        } else {
+            (
+                t.span.clone(),
+                format!(
+                    "{} {} needs {} mL of '{}', more than the whole {} mL run",
+                    t.species,
+                    units::concentration(t.concentration),
+                    trim_ml(v_timing),
+                    stock.name,
+                    trim_ml(spec.total_volume)
+                ),
+            )
+        };
         return Err(spec.source.error(
-            t.span.clone(),
-            format!(
-                "{} {} needs {} mL of '{}', more than the whole {} mL run",
-                t.species,
-                units::concentration(t.concentration),
-                units::ml(v_timing, 2),
-                stock.name,
-                units::ml(spec.total_volume, 2)
-            ),
-            "too concentrated for this stock",
-            "use a more concentrated timing stock or a lower timing concentration",
+            span,
+            what,
+            "too small",
+            "raise total_volume, lower the fixed volumes, or use a more concentrated timing stock",
         ));
     }
     let delivery = find_delivery(v_timing, &stock.devices, &spec.devices).ok_or_else(|| {
@@ -794,13 +798,16 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
                 [(s, take)] => {
                     let name = &spec.stocks[*s].name;
                     let limit = if limited_by_device {
-                        format!("the {} mL its largest allowed device delivers", trim_ml(take * 1e-3))
+                        format!(
+                            "the {} mL its largest allowed device delivers",
+                            trim_ml(take * 1e-3)
+                        )
                     } else {
                         format!("the whole {} mL left in the run", trim_ml(m.free_ml * 1e-3))
                     };
                     (
                         format!(
-                            "run '{run}': {what} needs more than {limit} of stock '{name}' (at most {})",
+                            "run '{run}': {what} is out of reach: {limit}, all of it '{name}', gives at most {}",
                             units::concentration(most_c)
                         ),
                         if limited_by_device {
@@ -812,7 +819,7 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
                 }
                 many => (
                     format!(
-                        "run '{run}': {what} needs more than all of {} together can give (at most {})",
+                        "run '{run}': {what} is out of reach: all of {} together give at most {}",
                         many.iter()
                             .map(|(s, _)| format!("'{}'", spec.stocks[*s].name))
                             .collect::<Vec<_>>()

@@ -1,0 +1,342 @@
+//! Integration tests through the built binary: good plans, outputs, exit codes, and bad input
+//! that must exit 2 with a located message and write nothing.
+
+use assert_cmd::Command;
+use predicates::prelude::*;
+use std::path::Path;
+
+const DEMO: &str = include_str!("../plans/maple-hollow-bromate.toml");
+
+fn clockprep() -> Command {
+    Command::cargo_bin("clockprep").unwrap()
+}
+
+#[test]
+fn demo_plan_prints_a_mixing_sheet() {
+    clockprep()
+        .args(["plan", "plans/maple-hollow-bromate.toml"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("Mixing sheet: Maple Hollow CC"))
+        .stdout(predicate::str::contains(
+            "start the timer at the moment of mixing",
+        ))
+        .stdout(predicate::str::contains("Stock to prepare"))
+        .stdout(predicate::str::contains("safety officer"));
+}
+
+#[test]
+fn output_is_deterministic_in_every_format() {
+    for format in ["text", "csv", "json", "md"] {
+        for plan in [
+            "plans/maple-hollow-bromate.toml",
+            "plans/quarry-lane-persulfate.toml",
+        ] {
+            let a = clockprep()
+                .args(["plan", plan, "-f", format])
+                .output()
+                .unwrap();
+            let b = clockprep()
+                .args(["plan", plan, "-f", format])
+                .output()
+                .unwrap();
+            assert!(a.status.success(), "{plan} {format}");
+            assert_eq!(a.stdout, b.stdout, "{plan} {format}");
+        }
+    }
+}
+
+#[test]
+fn writes_files_atomically_and_keeps_existing_ones() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("sheet.json");
+    clockprep()
+        .args([
+            "plan",
+            "plans/maple-hollow-bromate.toml",
+            "-f",
+            "json",
+            "-o",
+        ])
+        .arg(&out)
+        .assert()
+        .code(0)
+        .stdout("");
+    let first = std::fs::read(&out).unwrap();
+    let json: serde_json::Value = serde_json::from_slice(&first).unwrap();
+    assert_eq!(json["runs"].as_array().unwrap().len(), 5);
+
+    std::fs::write(&out, "keep me").unwrap();
+    clockprep()
+        .args([
+            "plan",
+            "plans/maple-hollow-bromate.toml",
+            "-f",
+            "json",
+            "-o",
+        ])
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("already exists"));
+    assert_eq!(std::fs::read_to_string(&out).unwrap(), "keep me");
+
+    clockprep()
+        .args([
+            "plan",
+            "plans/maple-hollow-bromate.toml",
+            "-f",
+            "json",
+            "--force",
+            "-o",
+        ])
+        .arg(&out)
+        .assert()
+        .code(0);
+    assert_eq!(std::fs::read(&out).unwrap(), first);
+    let leftovers: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
+    assert_eq!(leftovers.len(), 1, "no temporary file is left behind");
+}
+
+#[test]
+fn never_overwrites_the_spec() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("plan.toml");
+    std::fs::write(&spec, DEMO).unwrap();
+    clockprep()
+        .arg("plan")
+        .arg(&spec)
+        .arg("--force")
+        .arg("-o")
+        .arg(&spec)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("over the spec"));
+    assert_eq!(std::fs::read_to_string(&spec).unwrap(), DEMO);
+}
+
+#[test]
+fn flagged_plan_exits_1() {
+    // A 2.03 mM iodide target needs 10.15 mL of 0.0100 M KI: the 0.10 mL buret gives 10.10 or
+    // 10.20 mL (-0.49 % / +0.49 %), beyond a 0.2 % tolerance, so the run is flagged.
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("plan.toml");
+    let text = DEMO
+        .replace("tolerance = \"1 %\"", "tolerance = \"0.2 %\"")
+        .replacen("\"I-\" = \"2.00 mM\"", "\"I-\" = \"2.03 mM\"", 1);
+    std::fs::write(&spec, text).unwrap();
+    clockprep()
+        .arg("plan")
+        .arg(&spec)
+        .assert()
+        .code(1)
+        .stdout(predicate::str::contains("FLAG [off_target] I-"));
+}
+
+/// Each bad spec: (what it tests, text to replace, replacement, expected words in the message).
+const BAD: &[(&str, &str, &str, &str)] = &[
+    (
+        "toml syntax",
+        "title = \"Maple",
+        "title = Maple",
+        "not valid",
+    ),
+    (
+        "missing unit",
+        "total_volume = \"50.0 mL\"",
+        "total_volume = 50",
+        "bare number has no unit",
+    ),
+    (
+        "wrong unit kind",
+        "total_volume = \"50.0 mL\"",
+        "total_volume = \"50.0 mM\"",
+        "is a concentration, but a volume is needed",
+    ),
+    (
+        "unknown unit",
+        "total_volume = \"50.0 mL\"",
+        "total_volume = \"50.0 mg\"",
+        "unknown unit 'mg'",
+    ),
+    (
+        "negative concentration",
+        "\"I-\" = \"0.0100 M\"",
+        "\"I-\" = \"-0.0100 M\"",
+        "must be greater than zero",
+    ),
+    (
+        "zero concentration",
+        "concentration = \"0.100 mM\"",
+        "concentration = \"0 mM\"",
+        "must be greater than zero",
+    ),
+    (
+        "target above what the stock allows",
+        "\"H+\" = \"40.0 mM\"",
+        "\"H+\" = \"400 mM\"",
+        "out of reach",
+    ),
+    (
+        "unknown species",
+        "\"H+\" = \"40.0 mM\"",
+        "\"Fe^3+\" = \"40.0 mM\"",
+        "no stock contains Fe^3+",
+    ),
+    (
+        "unknown stock",
+        "using = \"KNO3 0.500 M\"",
+        "using = \"NaNO3 0.500 M\"",
+        "unknown stock 'NaNO3 0.500 M'",
+    ),
+    (
+        "duplicate names",
+        "name = \"iodide x2\"",
+        "name = \"reference\"",
+        "two runs are named 'reference'",
+    ),
+    (
+        "timing reagent in no stock",
+        "species = \"S2O3^2-\"",
+        "species = \"SCN-\"",
+        "no stock contains SCN-",
+    ),
+    (
+        "no device delivers the timing volume",
+        "devices = [\"5 mL transfer pipet\"]",
+        "devices = [\"1 mL transfer pipet\"]",
+        "no allowed device delivers 5 mL",
+    ),
+    (
+        "total smaller than fixed additions",
+        "fixed_volume = \"1.00 mL\"",
+        "fixed_volume = \"60.0 mL\"",
+        "add up to more than the whole 50 mL run",
+    ),
+    (
+        "empty runs",
+        "targets = { \"I-\" = \"4.00 mM\", \"BrO3-\" = \"8.00 mM\", \"H+\" = \"20.0 mM\" }",
+        "targets = { }",
+        "has no targets",
+    ),
+    (
+        "NaN text",
+        "concentration = \"0.100 mM\"",
+        "concentration = \"NaN mM\"",
+        "not finite",
+    ),
+    (
+        "inf text",
+        "total_volume = \"50.0 mL\"",
+        "total_volume = \"inf mL\"",
+        "not finite",
+    ),
+    (
+        "unknown key",
+        "stations = 8",
+        "statons = 8",
+        "unknown field `statons`",
+    ),
+    (
+        "unknown device kind",
+        "kind = \"buret\"",
+        "kind = \"spoon\"",
+        "unknown kind of device 'spoon'",
+    ),
+    (
+        "unknown device",
+        "devices = [\"10 mL graduated pipet\"]",
+        "devices = [\"10 mL pipet\"]",
+        "unknown device '10 mL pipet'",
+    ),
+    (
+        "temperature out of range",
+        "temperature = \"21 °C\"",
+        "temperature = \"80 °C\"",
+        "outside 0–60 °C",
+    ),
+    (
+        "species missing from a run",
+        "targets = { \"I-\" = \"2.00 mM\", \"BrO3-\" = \"8.00 mM\", \"H+\" = \"30.0 mM\" }",
+        "targets = { \"I-\" = \"2.00 mM\", \"BrO3-\" = \"8.00 mM\" }",
+        "targets different species",
+    ),
+    (
+        "one stock holds a keep-apart group",
+        "contains = { \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\" }",
+        "contains = { \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\", \"S2O3^2-\" = \"1.00 mM\" }",
+        "more than one stock",
+    ),
+    (
+        "timing species as a target",
+        "\"H+\" = \"40.0 mM\"",
+        "\"S2O3^2-\" = \"0.2 mM\"",
+        "is the timing species",
+    ),
+    (
+        "bad species charge",
+        "\"I-\" = \"0.0100 M\"",
+        "\"I^x-\" = \"0.0100 M\"",
+        "charge is not readable",
+    ),
+];
+
+fn located(stderr: &str, file: &str) -> bool {
+    // miette shows the location as [file:line:col]
+    let Some(at) = stderr.find(&format!("{file}:")) else {
+        return false;
+    };
+    let rest = &stderr[at + file.len() + 1..];
+    let mut parts = rest.splitn(3, |c: char| !c.is_ascii_digit());
+    let line = parts.next().unwrap_or("");
+    let col = parts.next().unwrap_or("");
+    !line.is_empty() && !col.is_empty() && rest[line.len()..].starts_with(':')
+}
+
+#[test]
+fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
+    assert!(BAD.len() >= 15);
+    for (what, from, to, expect) in BAD {
+        assert!(
+            DEMO.contains(from),
+            "{what}: the demo no longer contains {from:?}"
+        );
+        let dir = tempfile::tempdir().unwrap();
+        let spec = dir.path().join("bad.toml");
+        std::fs::write(&spec, DEMO.replacen(from, to, 1)).unwrap();
+        let out = dir.path().join("sheet.txt");
+        let result = clockprep()
+            .arg("plan")
+            .arg(&spec)
+            .arg("-o")
+            .arg(&out)
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&result.stderr);
+        assert_eq!(result.status.code(), Some(2), "{what}: {stderr}");
+        assert!(
+            stderr.contains(expect),
+            "{what}: expected {expect:?} in\n{stderr}"
+        );
+        assert!(
+            located(&stderr, &spec.display().to_string()),
+            "{what}: no file:line:col in\n{stderr}"
+        );
+        assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
+        assert!(!Path::new(&out).exists(), "{what}: wrote an output");
+        assert_eq!(
+            std::fs::read_dir(dir.path()).unwrap().count(),
+            1,
+            "{what}: left a file behind"
+        );
+    }
+}
+
+#[test]
+fn missing_spec_file_exits_2() {
+    clockprep()
+        .args(["plan", "plans/no-such-plan.toml"])
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("cannot read the spec"));
+}
