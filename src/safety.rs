@@ -10,24 +10,27 @@ pub const GENERAL: [&str; 4] = [
     "Volumes and any predicted times are planning aids, not guarantees: check a pilot run before the class.",
 ];
 
-/// Reagent cautions keyed by species. Plain-language summaries of the usual hazard statements
+/// Reagent cautions, printed when the plan uses all of the listed species. Plain-language summaries of the usual hazard statements
 /// for the common salts; `from memory`, to be replaced by the sourced reagent data file.
-const BY_SPECIES: [(&str, &str); 8] = [
-    ("BrO3-", "Bromate (e.g. potassium bromate): strong oxidiser, toxic if swallowed, may cause cancer. Weigh it without raising dust, keep it away from organic material, and wash hands after handling."),
-    ("S2O8^2-", "Persulfate (peroxodisulfate): oxidiser; may cause skin sensitisation and asthma-like symptoms if its dust is inhaled."),
-    ("H2O2", "Hydrogen peroxide: oxidiser; can cause serious eye damage. Store stocks cool and vented."),
-    ("IO3-", "Iodate: oxidiser; keep away from combustible material."),
-    ("H+", "Acid stocks irritate or burn skin and eyes; when diluting, add acid to water."),
-    ("HSO3-", "Bisulfite releases sulfur dioxide with acid; prepare and use it in a well-ventilated area."),
-    ("S2O3^2-", "Thiosulfate decomposes in acid (sulfur and sulfur dioxide): keep the thiosulfate stock out of the acid portion."),
-    ("I-", "Iodide and iodine solutions stain skin and clothes; iodine vapour irritates eyes."),
+const BY_SPECIES: [(&[&str], &str); 8] = [
+    (&["BrO3-"], "Bromate (e.g. potassium bromate): strong oxidiser, toxic if swallowed, may cause cancer. Weigh it without raising dust, keep it away from organic material, and wash hands after handling."),
+    (&["S2O8^2-"], "Persulfate (peroxodisulfate): oxidiser; may cause skin sensitisation and asthma-like symptoms if its dust is inhaled."),
+    (&["H2O2"], "Hydrogen peroxide: oxidiser; can cause serious eye damage. Store stocks cool and vented."),
+    (&["IO3-"], "Iodate: oxidiser; keep away from combustible material."),
+    (&["H+"], "Acid stocks irritate or burn skin and eyes; when diluting, add acid to water."),
+    (&["HSO3-"], "Bisulfite releases sulfur dioxide with acid; prepare and use it in a well-ventilated area."),
+    (&["S2O3^2-", "H+"], "Thiosulfate decomposes in acid (sulfur and sulfur dioxide): keep the thiosulfate stock out of the acid portion."),
+    (&["I-"], "Iodide and iodine solutions stain skin and clothes; iodine vapour irritates eyes."),
 ];
 
 /// All cautions for a plan whose used stocks contain `species`.
 pub fn cautions<'a>(species: impl IntoIterator<Item = &'a str> + Clone) -> Vec<String> {
     let mut out: Vec<String> = GENERAL.iter().map(|s| s.to_string()).collect();
-    for (sp, line) in BY_SPECIES {
-        if species.clone().into_iter().any(|s| s == sp) {
+    for (needs, line) in BY_SPECIES {
+        if needs
+            .iter()
+            .all(|sp| species.clone().into_iter().any(|s| s == *sp))
+        {
             out.push(line.to_string());
         }
     }

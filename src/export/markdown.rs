@@ -146,7 +146,7 @@ impl Exporter for Markdown {
                 t.used_ml,
                 t.ml,
                 t.flask_count,
-                sig(t.flask_ml, 3)
+                t.flask_ml
             );
         }
         let _ = writeln!(

@@ -237,7 +237,7 @@ impl Exporter for Text {
                     format!("{:.1}", t.per_station_ml),
                     format!("{:.1}", t.used_ml),
                     format!("{:.1}", t.ml),
-                    format!("{} x {} mL", t.flask_count, sig(t.flask_ml, 3)),
+                    format!("{} x {} mL", t.flask_count, t.flask_ml),
                 ]
             })
             .collect();

@@ -1,0 +1,34 @@
+//! Snapshot tests of every output format for the demo plans. Review changes with
+//! `cargo insta review` (or delete the .snap file and rerun) and commit the new snapshot.
+
+use clockprep::error::SpecSource;
+use clockprep::export::{export, Format};
+
+fn report(path: &str) -> clockprep::report::PlanReport {
+    let text = std::fs::read_to_string(path).unwrap();
+    clockprep::plan(SpecSource::new(path, text)).unwrap()
+}
+
+fn check(plan: &str, tag: &str) {
+    let r = report(&format!("plans/{plan}.toml"));
+    for (format, ext) in [
+        (Format::Text, "txt"),
+        (Format::Csv, "csv"),
+        (Format::Json, "json"),
+        (Format::Markdown, "md"),
+    ] {
+        let bytes = export(&r, format);
+        let text = String::from_utf8(bytes).unwrap();
+        insta::assert_snapshot!(format!("{tag}_{ext}"), text);
+    }
+}
+
+#[test]
+fn bromate_demo() {
+    check("maple-hollow-bromate", "bromate");
+}
+
+#[test]
+fn persulfate_demo() {
+    check("quarry-lane-persulfate", "persulfate");
+}

@@ -1,0 +1,140 @@
+//! Property tests of the solve on random feasible plans: the volumes add up to the total, each
+//! is deliverable by the device named for it, the timing stock is identical in every run, the
+//! reported deviations are those of the delivered volumes, and the recipe is as good as
+//! rounding each single-species stock to its device's graduation (the analytic optimum when
+//! water shares that graduation).
+
+use clockprep::error::SpecSource;
+use proptest::prelude::*;
+
+#[derive(Debug, Clone)]
+struct Case {
+    total_ml: f64,
+    grad_ml: f64,
+    /// stock concentrations (M) of A and B
+    c_stock: [f64; 2],
+    timing_steps: u32,
+    /// ideal volumes (mL) of A and B per run, off the grid
+    runs: Vec<[f64; 2]>,
+}
+
+fn case() -> impl Strategy<Value = Case> {
+    (
+        prop_oneof![Just(20.0), Just(25.0), Just(50.0)],
+        prop_oneof![Just(0.01), Just(0.05), Just(0.1)],
+        [0.01f64..0.2, 0.01f64..0.2],
+        5u32..40,
+        prop::collection::vec([0.2f64..1.0, 0.2f64..1.0], 1..5),
+    )
+        .prop_map(|(total_ml, grad_ml, c_stock, timing_steps, fr)| {
+            // Keep the stocks within 70 % of the volume left after the timing stock.
+            let free = total_ml - timing_steps as f64 * grad_ml;
+            let runs = fr
+                .into_iter()
+                .map(|[a, b]| [a * 0.35 * free, b * 0.35 * free])
+                .collect();
+            Case {
+                total_ml,
+                grad_ml,
+                c_stock,
+                timing_steps,
+                runs,
+            }
+        })
+}
+
+fn spec_text(c: &Case) -> String {
+    let timing_ml = c.timing_steps as f64 * c.grad_ml;
+    let c_thio = 0.005;
+    let timing_c = c_thio * timing_ml / c.total_ml;
+    let mut s = format!(
+        r#"[plan]
+title = "property case"
+total_volume = "{} mL"
+tolerance = "50 %"
+
+[timing]
+species = "S2O3^2-"
+concentration = "{timing_c:e} M"
+
+[mixing]
+keep_apart = [["X-", "Y+"]]
+
+[[stock]]
+name = "A"
+contains = {{ "X-" = "{:e} M", "Na+" = "{:e} M" }}
+
+[[stock]]
+name = "B"
+contains = {{ "Y+" = "{:e} M", "Cl-" = "{:e} M" }}
+
+[[stock]]
+name = "thio"
+contains = {{ "S2O3^2-" = "{c_thio} M", "Na+" = "{} M" }}
+
+[[device]]
+name = "buret"
+kind = "buret"
+capacity = "50 mL"
+graduation = "{} mL"
+"#,
+        c.total_ml,
+        c.c_stock[0],
+        c.c_stock[0],
+        c.c_stock[1],
+        c.c_stock[1],
+        2.0 * c_thio,
+        c.grad_ml
+    );
+    for (i, [va, vb]) in c.runs.iter().enumerate() {
+        let ta = c.c_stock[0] * va / c.total_ml;
+        let tb = c.c_stock[1] * vb / c.total_ml;
+        s.push_str(&format!(
+            "\n[[run]]\nname = \"r{i}\"\ntargets = {{ \"X-\" = \"{ta:e} M\", \"Y+\" = \"{tb:e} M\" }}\n"
+        ));
+    }
+    s
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+    #[test]
+    fn recipes_are_deliverable_exact_and_optimal(c in case()) {
+        let text = spec_text(&c);
+        let spec = clockprep::spec::load(SpecSource::new("prop.toml", text)).unwrap();
+        let sol = clockprep::solve::solve(&spec).unwrap();
+        let timing = spec.timing.stock;
+        let first_timing = sol.runs[0].volume_of(timing);
+        for (r, run) in sol.runs.iter().zip(&c.runs) {
+            // Sum to the total within 1e-9 mL.
+            let sum: f64 = r.additions.iter().map(|a| a.volume).sum();
+            prop_assert!((sum - spec.total_volume).abs() * 1e3 < 1e-9, "sum {sum}");
+            // Each volume is what its devices deliver, each part inside the device's range.
+            for a in &r.additions {
+                prop_assert!((a.delivery.volume(&spec.devices) - a.volume).abs() < 1e-15);
+                for &(d, n) in &a.delivery.parts {
+                    let dev = &spec.devices[d];
+                    let (lo, hi) = dev.count_range();
+                    prop_assert!(lo <= n && n <= hi, "{n} steps outside {lo}..={hi}");
+                }
+            }
+            // Timing stock identical in every run.
+            prop_assert_eq!(r.volume_of(timing), first_timing);
+            // Reported deviations are those of the delivered volumes.
+            for g in &r.goals {
+                let (stock, conc) = if g.label == "X-" { (0, c.c_stock[0]) } else { (1, c.c_stock[1]) };
+                let achieved = conc * r.volume_of(stock) / spec.total_volume;
+                approx::assert_relative_eq!(g.achieved, achieved, max_relative = 1e-12);
+                approx::assert_relative_eq!(g.deviation, (achieved - g.target) / g.target, epsilon = 1e-12);
+            }
+            // Optimal: no worse than rounding each stock to the nearest graduation.
+            let bound = run
+                .iter()
+                .map(|v| (c.grad_ml / 2.0) / v)
+                .fold(0.0, f64::max);
+            let worst = r.goals.iter().map(|g| g.deviation.abs()).fold(0.0, f64::max);
+            prop_assert!(worst <= bound + 1e-9, "worst {worst} > bound {bound}");
+        }
+    }
+}
