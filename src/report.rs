@@ -4,7 +4,7 @@
 use crate::mixing::{Mixing, Portion};
 use crate::safety;
 use crate::solve::{Flag, Solution};
-use crate::spec::{Spec, Vessel};
+use crate::spec::Spec;
 use crate::totals::Totals;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
@@ -337,20 +337,5 @@ pub fn build(spec: &Spec, solution: &Solution, mixing: &Mixing, totals: &Totals)
             .collect(),
         water_total_ml: ml(totals.water),
         cautions: safety::cautions(species_used),
-    }
-}
-
-impl PlanReport {
-    /// The vessel poured at t = 0, as a word for sentences.
-    pub fn poured(&self) -> Vessel {
-        if self
-            .runs
-            .first()
-            .is_some_and(|r| r.portions.pour.starts_with('A'))
-        {
-            Vessel::A
-        } else {
-            Vessel::B
-        }
     }
 }

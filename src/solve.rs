@@ -29,6 +29,10 @@ use std::ops::Range;
 /// Safety net against a runaway branch-and-bound; a normal run solves in milliseconds.
 const TIME_LIMIT_S: f64 = 30.0;
 
+/// A best deliverable recipe further off than this (or ten tolerances) is reported as no
+/// recipe (exit 2) rather than flagged (exit 1).
+const GROSS_DEVIATION: f64 = 0.10;
+
 /// One addition to a run: a stock (or water, `stock == None`), its volume and how to deliver it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Addition {
@@ -111,9 +115,12 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
         Some(IonicTarget::Max) => {
             // First pass without the salt; hold every run at the largest value found.
             let mut highest: f64 = 0.0;
-            for (i, run) in spec.runs.iter().enumerate() {
-                let s = solve_run(spec, i, run, &constant, None)?;
-                highest = highest.max(s.ionic_strength);
+            let mut seen = std::collections::HashSet::new();
+            for run in &spec.runs {
+                if seen.insert(targets_key(run)) {
+                    let s = solve_run(spec, run, &constant, None)?;
+                    highest = highest.max(s.ionic_strength);
+                }
             }
             Some(highest)
         }
@@ -122,12 +129,7 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
     let mut runs: Vec<RunSolution> = Vec::with_capacity(spec.runs.len());
     let mut seen: HashMap<Vec<(String, u64)>, usize> = HashMap::new();
     for (i, run) in spec.runs.iter().enumerate() {
-        let mut key: Vec<(String, u64)> = run
-            .targets
-            .iter()
-            .map(|t| (t.species.clone(), t.concentration.to_bits()))
-            .collect();
-        key.sort();
+        let key = targets_key(run);
         if let Some(&first) = seen.get(&key) {
             let mut copy = runs[first].clone();
             copy.same_as = Some(first);
@@ -135,7 +137,7 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
             continue;
         }
         seen.insert(key, i);
-        runs.push(solve_run(spec, i, run, &constant, ionic_target)?);
+        runs.push(solve_run(spec, run, &constant, ionic_target)?);
     }
 
     // Keep only stocks used somewhere; every run lists the same ones, in spec order.
@@ -151,6 +153,17 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
         ionic_target,
         runs,
     })
+}
+
+/// Runs with equal keys have identical targets and share one recipe.
+fn targets_key(run: &Run) -> Vec<(String, u64)> {
+    let mut key: Vec<(String, u64)> = run
+        .targets
+        .iter()
+        .map(|t| (t.species.clone(), t.concentration.to_bits()))
+        .collect();
+    key.sort();
+    key
 }
 
 fn constant_additions(spec: &Spec) -> Result<Constant> {
@@ -300,6 +313,8 @@ struct GoalRow {
     coeffs: Vec<f64>,
     /// mmol from the constant additions.
     constant: f64,
+    /// The held ionic strength rather than a species.
+    ionic: bool,
     span: Range<usize>,
 }
 
@@ -341,6 +356,7 @@ impl<'a> RunModel<'a> {
                         .map_or(0.0, |st| st.concentration_of(&t.species))
                 }),
                 span: t.span.clone(),
+                ionic: false,
             })
             .collect();
         if let (Some(target), Some(hold)) = (ionic, &spec.ionic) {
@@ -355,6 +371,7 @@ impl<'a> RunModel<'a> {
                     spec.stocks.get(s).map_or(0.0, |st| st.ionic_strength())
                 }),
                 span: hold.span.clone(),
+                ionic: true,
             });
         }
         RunModel {
@@ -440,41 +457,98 @@ fn delivery_vars(
     }
 }
 
-enum Stage {
-    /// Minimise the largest deviation.
-    MaxDeviation,
-    /// Keep the largest deviation at `z`, then minimise the sum and prefer precise glassware.
-    SumDeviation(f64),
+/// What one solve of a run's model minimises. Goals come in two tiers: the target species,
+/// then the held ionic strength, so an inert salt never pulls a reactant off its target.
+#[derive(Clone, Copy)]
+enum Objective {
+    /// The largest deviation of a target species.
+    MaxSpecies,
+    /// With species capped, the deviation of the held ionic strength.
+    MaxIonic,
+    /// With both capped, the sum of all deviations, then precise glassware.
+    Sum,
 }
 
-struct IntegerOutcome {
+#[derive(Clone, Copy)]
+struct Stage {
+    objective: Objective,
+    species_cap: Option<f64>,
+    ionic_cap: Option<f64>,
+}
+
+impl Stage {
+    fn first() -> Stage {
+        Stage {
+            objective: Objective::MaxSpecies,
+            species_cap: None,
+            ionic_cap: None,
+        }
+    }
+}
+
+/// Integer: every volume a deliverable one. Continuous: volumes free between zero and what the
+/// allowed devices hold, to tell an unreachable target from a rounding problem.
+#[derive(Clone, Copy, PartialEq)]
+enum Relax {
+    Integer,
+    Continuous,
+}
+
+struct Outcome {
+    /// Integer solves: the additions of varied stocks, then water.
     additions: Vec<Addition>,
-    max_dev: f64,
+    /// Volumes (mL) of the varied stocks.
+    volumes_ml: Vec<f64>,
+    z_species: f64,
+    z_ionic: f64,
 }
 
-fn solve_integer(
+fn solve_model(
     m: &RunModel,
+    relax: Relax,
     stage: Stage,
-) -> std::result::Result<IntegerOutcome, ResolutionError> {
+) -> std::result::Result<Outcome, ResolutionError> {
     let spec = m.spec;
     let mut vars = ProblemVariables::new();
     let mut cons = Vec::new();
-    let stock_vars: Vec<DeliveryVars> = m
-        .vary
-        .iter()
-        .map(|&s| delivery_vars(&mut vars, &spec.stocks[s].devices, &spec.devices, &mut cons))
-        .collect();
     // Split water is two additions, one per vessel; otherwise one.
     let water_parts = if spec.water_vessel == WaterVessel::Split {
         2
     } else {
         1
     };
-    let waters: Vec<DeliveryVars> = (0..water_parts)
-        .map(|_| delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons))
-        .collect();
-    let z = vars.add(variable().min(0.0));
-    let mut objective = Expression::from(0.0);
+    let (stock_vars, waters): (Vec<DeliveryVars>, Vec<DeliveryVars>) = match relax {
+        Relax::Integer => (
+            m.vary
+                .iter()
+                .map(|&s| {
+                    delivery_vars(&mut vars, &spec.stocks[s].devices, &spec.devices, &mut cons)
+                })
+                .collect(),
+            (0..water_parts)
+                .map(|_| delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons))
+                .collect(),
+        ),
+        Relax::Continuous => {
+            let free = |vars: &mut ProblemVariables, cap: f64| {
+                let v = vars.add(variable().min(0.0).max(cap));
+                DeliveryVars {
+                    counts: Vec::new(),
+                    volume: v.into(),
+                    choices: Vec::new(),
+                }
+            };
+            let stocks = m
+                .vary
+                .iter()
+                .map(|&s| free(&mut vars, m.cap_ml(&spec.stocks[s].devices)))
+                .collect();
+            let water_cap = (m.cap_ml(&spec.water_devices) * water_parts as f64).min(m.free_ml);
+            (stocks, vec![free(&mut vars, water_cap)])
+        }
+    };
+    let z_species = vars.add(variable().min(0.0));
+    let z_ionic = vars.add(variable().min(0.0));
     let mut sum_dev = Expression::from(0.0);
     let total = m.total_ml();
 
@@ -493,27 +567,36 @@ fn solve_integer(
                 rel += dv.volume.clone() * (a * scale);
             }
         }
+        let z = if g.ionic { z_ionic } else { z_species };
         cons.push((rel.clone() - 1.0 - z).leq(0.0));
         cons.push((1.0 - rel.clone() - z).leq(0.0));
-        if let Stage::SumDeviation(_) = stage {
+        if let Objective::Sum = stage.objective {
             let e = vars.add(variable().min(0.0));
             cons.push((rel.clone() - 1.0 - e).leq(0.0));
             cons.push((1.0 - rel - e).leq(0.0));
             sum_dev += e;
         }
     }
-    match stage {
-        Stage::MaxDeviation => objective += z,
-        Stage::SumDeviation(zmax) => {
-            cons.push(Expression::from(z).leq(zmax + 1e-9 + zmax * 1e-9));
-            objective += sum_dev;
+    let slack = |z: f64| z + 1e-9 + z * 1e-9;
+    if let Some(cap) = stage.species_cap {
+        cons.push(Expression::from(z_species).leq(slack(cap)));
+    }
+    if let Some(cap) = stage.ionic_cap {
+        cons.push(Expression::from(z_ionic).leq(slack(cap)));
+    }
+    let objective = match stage.objective {
+        Objective::MaxSpecies => Expression::from(z_species),
+        Objective::MaxIonic => Expression::from(z_ionic),
+        Objective::Sum => {
+            let mut o = sum_dev;
             for dv in stock_vars.iter().chain(&waters) {
                 for (y, pref) in &dv.choices {
-                    objective += (1e-7 * (1.0 + pref)) * *y;
+                    o += (1e-7 * (1.0 + pref)) * *y;
                 }
             }
+            o
         }
-    }
+    };
     let mut model = vars
         .minimise(objective)
         .using(microlp)
@@ -535,67 +618,60 @@ fn solve_integer(
         Delivery { parts }
     };
     let mut additions = Vec::new();
-    for (dv, &s) in stock_vars.iter().zip(&m.vary) {
-        let delivery = read(dv);
+    if relax == Relax::Integer {
+        for (dv, &s) in stock_vars.iter().zip(&m.vary) {
+            let delivery = read(dv);
+            additions.push(Addition {
+                stock: Some(s),
+                volume: delivery.volume(&spec.devices),
+                delivery,
+            });
+        }
+        let mut delivery = Delivery::none();
+        for w in &waters {
+            delivery.parts.extend(read(w).parts);
+        }
         additions.push(Addition {
-            stock: Some(s),
+            stock: None,
             volume: delivery.volume(&spec.devices),
             delivery,
         });
     }
-    let mut delivery = Delivery::none();
-    for w in &waters {
-        delivery.parts.extend(read(w).parts);
-    }
-    additions.push(Addition {
-        stock: None,
-        volume: delivery.volume(&spec.devices),
-        delivery,
-    });
-    Ok(IntegerOutcome {
+    Ok(Outcome {
         additions,
-        max_dev: sol.value(z),
+        volumes_ml: stock_vars.iter().map(|dv| sol.eval(&dv.volume)).collect(),
+        z_species: sol.value(z_species),
+        z_ionic: sol.value(z_ionic),
     })
 }
 
-/// The continuous relaxation: volumes free between 0 and what the devices can hold.
-/// Returns the smallest achievable largest deviation and the ideal volumes (mL) per varied stock.
-fn solve_continuous(m: &RunModel) -> std::result::Result<(f64, Vec<f64>), ResolutionError> {
-    let spec = m.spec;
-    let mut vars = ProblemVariables::new();
-    let vols: Vec<Variable> = m
-        .vary
-        .iter()
-        .map(|&s| vars.add(variable().min(0.0).max(m.cap_ml(&spec.stocks[s].devices))))
-        .collect();
-    let water_parts = if spec.water_vessel == WaterVessel::Split {
-        2.0
+/// Solve the tiers in order: species, then ionic strength (when held), then the sums.
+fn solve_tiers(m: &RunModel, relax: Relax) -> std::result::Result<Outcome, ResolutionError> {
+    let first = solve_model(m, relax, Stage::first())?;
+    let held = m.goals.iter().any(|g| g.ionic);
+    let second = if held {
+        let stage = Stage {
+            objective: Objective::MaxIonic,
+            species_cap: Some(first.z_species),
+            ionic_cap: None,
+        };
+        solve_model(m, relax, stage).unwrap_or(first)
     } else {
-        1.0
+        first
     };
-    let water_cap = (m.cap_ml(&spec.water_devices) * water_parts).min(m.free_ml);
-    let z = vars.add(variable().min(0.0));
-    let mut model = vars.minimise(z).using(microlp);
-    let used: Expression = vols.iter().copied().sum();
-    model = model.with(used.clone().leq(m.free_ml));
-    model = model.with((m.free_ml - used).leq(water_cap));
-    let total = m.total_ml();
-    for g in &m.goals {
-        let scale = 1.0 / (total * g.target);
-        let mut rel = Expression::from(g.constant * scale);
-        for (&v, &a) in vols.iter().zip(&g.coeffs) {
-            rel += (a * scale) * v;
-        }
-        model = model.with((rel.clone() - 1.0 - z).leq(0.0));
-        model = model.with((1.0 - rel - z).leq(0.0));
+    if relax == Relax::Continuous {
+        return Ok(second);
     }
-    let sol = model.solve()?;
-    Ok((sol.value(z), vols.iter().map(|&v| sol.value(v)).collect()))
+    let stage = Stage {
+        objective: Objective::Sum,
+        species_cap: Some(second.z_species),
+        ionic_cap: held.then_some(second.z_ionic),
+    };
+    Ok(solve_model(m, relax, stage).unwrap_or(second))
 }
 
 fn solve_run(
     spec: &Spec,
-    index: usize,
     run: &Run,
     constant: &Constant,
     ionic: Option<f64>,
@@ -605,19 +681,20 @@ fn solve_run(
         run: run.name.clone(),
         reason: e.to_string(),
     };
-    let (best, ideal) = solve_continuous(&m).map_err(|e| match e {
+    let relaxed = solve_tiers(&m, Relax::Continuous).map_err(|e| match e {
         ResolutionError::Infeasible => water_error(&m),
         other => solver_error(other),
     })?;
+    let best = relaxed.z_species.max(relaxed.z_ionic);
     if best > spec.tolerance {
         return Err(explain_unreachable(&m, best));
     }
-    let first = match solve_integer(&m, Stage::MaxDeviation) {
+    let ideal = relaxed.volumes_ml;
+    let outcome = match solve_tiers(&m, Relax::Integer) {
         Ok(o) => o,
         Err(ResolutionError::Infeasible) => return Err(explain_integer_infeasible(&m, &ideal)),
         Err(e) => return Err(solver_error(e)),
     };
-    let outcome = solve_integer(&m, Stage::SumDeviation(first.max_dev)).unwrap_or(first);
 
     let mut additions = constant.additions.clone();
     additions.extend(outcome.additions.into_iter().filter(|a| a.stock.is_some()));
@@ -634,15 +711,33 @@ fn solve_run(
         .fold(0.0, f64::max);
     let mut solution = solution;
     if worst > spec.tolerance {
-        if let Some(err) = explain_out_of_range(&m, &ideal) {
-            return Err(err);
+        let too_small = TooSmall::find(&m, &ideal);
+        // Far off target, the nearest deliverable recipe is no recipe at all.
+        if worst > GROSS_DEVIATION.max(10.0 * spec.tolerance) {
+            return Err(match too_small {
+                Some(t) => t.error(&m),
+                None => spec.source.error(
+                    run.span.clone(),
+                    format!(
+                        "run '{}': the nearest deliverable recipe is {:.1} % off target",
+                        run.name,
+                        worst * 100.0
+                    ),
+                    "no usable recipe",
+                    "allow finer glassware for the stocks of this run, or use more dilute stocks",
+                ),
+            });
         }
+        let cause = match &too_small {
+            Some(t) => t.describe(spec),
+            None => "the nearest deliverable volumes of its stocks".to_string(),
+        };
         for g in &solution.goals {
             if g.deviation.abs() > spec.tolerance {
                 solution.flags.push(Flag {
                     code: "off_target",
                     message: format!(
-                        "{} is {:+.2} % from its target (tolerance {} %): the nearest deliverable volumes of its stocks; a finer device or a more dilute stock would help",
+                        "{} is {:+.2} % from its target (tolerance {} %): {cause}; a finer device or a more dilute stock would help",
                         g.label,
                         g.deviation * 100.0,
                         units::sig3(spec.tolerance * 100.0)
@@ -651,7 +746,6 @@ fn solve_run(
             }
         }
     }
-    let _ = index;
     Ok(solution)
 }
 
@@ -889,44 +983,61 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
     )
 }
 
-/// An ideal volume no allowed device can deliver: the run cannot be made as specified.
-fn explain_out_of_range(m: &RunModel, ideal: &[f64]) -> Option<Error> {
-    let spec = m.spec;
-    for (i, &v_ml) in ideal.iter().enumerate() {
-        if v_ml <= 1e-9 {
-            continue;
-        }
-        let stock = &spec.stocks[m.vary[i]];
-        let smallest = stock
-            .devices
-            .iter()
-            .map(|&d| (spec.devices[d].min, d))
-            .min_by(|a, b| a.0.total_cmp(&b.0));
-        if let Some((min, d)) = smallest {
-            if v_ml * 1e-3 < min * (1.0 - spec.tolerance) {
-                return Some(spec.source.error(
-                    stock.name_span.clone(),
-                    format!(
-                        "run '{}': no allowed device delivers {} mL of '{}' (the smallest is {} mL with '{}')",
-                        m.run.name,
-                        trim_ml(v_ml * 1e-3),
-                        stock.name,
-                        trim_ml(min),
-                        spec.devices[d].name
-                    ),
-                    "volume too small for its devices",
-                    "allow a smaller device for this stock (devices = [...]), or use a more dilute stock",
-                ));
+/// A stock whose ideal volume is below what any of its allowed devices delivers.
+struct TooSmall {
+    stock: usize,
+    ideal: f64,
+    min: f64,
+    device: usize,
+}
+
+impl TooSmall {
+    fn find(m: &RunModel, ideal: &[f64]) -> Option<TooSmall> {
+        let spec = m.spec;
+        ideal.iter().enumerate().find_map(|(i, &v_ml)| {
+            if v_ml <= 1e-9 {
+                return None;
             }
-        }
+            let stock = m.vary[i];
+            let (min, device) = spec.stocks[stock]
+                .devices
+                .iter()
+                .map(|&d| (spec.devices[d].min, d))
+                .min_by(|a, b| a.0.total_cmp(&b.0))?;
+            (v_ml * 1e-3 < min * (1.0 - spec.tolerance)).then_some(TooSmall {
+                stock,
+                ideal: v_ml * 1e-3,
+                min,
+                device,
+            })
+        })
     }
-    None
+
+    fn describe(&self, spec: &Spec) -> String {
+        format!(
+            "no allowed device delivers {} mL of '{}' (the smallest is {} mL with '{}')",
+            trim_ml(self.ideal),
+            spec.stocks[self.stock].name,
+            trim_ml(self.min),
+            spec.devices[self.device].name
+        )
+    }
+
+    fn error(&self, m: &RunModel) -> Error {
+        let spec = m.spec;
+        spec.source.error(
+            spec.stocks[self.stock].name_span.clone(),
+            format!("run '{}': {}", m.run.name, self.describe(spec)),
+            "volume too small for its devices",
+            "allow a smaller device for this stock (devices = [...]), or use a more dilute stock",
+        )
+    }
 }
 
 /// The integer model has no solution although the continuous one does.
 fn explain_integer_infeasible(m: &RunModel, ideal: &[f64]) -> Error {
-    if let Some(e) = explain_out_of_range(m, ideal) {
-        return e;
+    if let Some(t) = TooSmall::find(m, ideal) {
+        return t.error(m);
     }
     let spec = m.spec;
     let steps: Vec<String> = spec
@@ -1090,5 +1201,28 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         let sol = solve(&spec(&text)).unwrap();
         assert_eq!(sol.runs[1].same_as, Some(0));
         assert_eq!(sol.runs[1].additions, sol.runs[0].additions);
+    }
+
+    #[test]
+    fn held_ionic_strength_never_pulls_a_reactant_off_target() {
+        // I = ½ Σ c z² (IUPAC Gold Book, "ionic strength"). r1 without salt:
+        // KI 0.0100 M + KBrO3 0.00800 M + thiosulfate ½(0.2 mM·4 + 0.4 mM) = 0.0186 M.
+        // Holding 0.100 M needs 4.07 mL of 1.00 M KNO3, but a 1 mL pipet gives 4 or 5 mL:
+        // I = 0.0986 M (-1.4 %), flagged, while iodide and bromate stay exact.
+        let text = BASE
+            .replace(
+                "[[device]]",
+                "[[stock]]\nname = \"KNO3 1.00 M\"\ncontains = { \"K+\" = \"1.00 M\", \"NO3-\" = \"1.00 M\" }\ndevices = [\"1 mL pipet\"]\n\n[[device]]\nname = \"1 mL pipet\"\nkind = \"volumetric pipet\"\nvolume = \"1 mL\"\nfills = 5\n\n[[device]]",
+            )
+            .replace("[mixing]", "[ionic_strength]\nhold = \"0.100 M\"\nusing = \"KNO3 1.00 M\"\n\n[mixing]");
+        let sol = solve(&spec(&text)).unwrap();
+        let r1 = &sol.runs[0];
+        for g in r1.goals.iter().filter(|g| g.label != "ionic strength") {
+            assert!(g.deviation.abs() < 1e-9, "{g:?}");
+        }
+        assert_relative_eq!(r1.volume_of(3), 4.0e-3, epsilon = 1e-12);
+        assert_relative_eq!(r1.ionic_strength, 0.0986, max_relative = 1e-9);
+        assert_eq!(r1.flags.len(), 1);
+        assert!(r1.flags[0].message.starts_with("ionic strength is -1.40 %"), "{}", r1.flags[0].message);
     }
 }
