@@ -1223,6 +1223,10 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         assert_relative_eq!(r1.volume_of(3), 4.0e-3, epsilon = 1e-12);
         assert_relative_eq!(r1.ionic_strength, 0.0986, max_relative = 1e-9);
         assert_eq!(r1.flags.len(), 1);
-        assert!(r1.flags[0].message.starts_with("ionic strength is -1.40 %"), "{}", r1.flags[0].message);
+        assert!(
+            r1.flags[0].message.starts_with("ionic strength is -1.40 %"),
+            "{}",
+            r1.flags[0].message
+        );
     }
 }
