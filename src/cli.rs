@@ -32,16 +32,30 @@ pub enum Command {
     Plan {
         /// The plan spec (TOML).
         spec: PathBuf,
-        /// Output format.
-        #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
-        format: FormatArg,
-        /// Write to this file instead of stdout (atomically; never over the spec).
-        #[arg(short, long)]
-        output: Option<PathBuf>,
-        /// Replace the output file if it exists.
-        #[arg(long)]
-        force: bool,
+        #[command(flatten)]
+        out: OutputArgs,
     },
+    /// Forecast the time to colour of every run from its target concentrations and the prior
+    /// rate law in [reaction] (no stocks or glassware needed).
+    Forecast {
+        /// The spec (TOML) with [plan], [timing], [reaction] and runs.
+        spec: PathBuf,
+        #[command(flatten)]
+        out: OutputArgs,
+    },
+}
+
+#[derive(clap::Args, Debug)]
+pub struct OutputArgs {
+    /// Output format.
+    #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Write to this file instead of stdout (atomically; never over the spec).
+    #[arg(short, long)]
+    pub output: Option<PathBuf>,
+    /// Replace the output file if it exists.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug)]
@@ -86,20 +100,21 @@ fn emit(bytes: &[u8], output: Option<&Path>, force: bool, spec: &Path) -> Result
 /// Run one command; returns the exit code.
 pub fn run(cli: Cli) -> Result<i32, Error> {
     match cli.command {
-        Command::Plan {
-            spec,
-            format,
-            output,
-            force,
-        } => {
+        Command::Plan { spec, out } => {
             let report = crate::plan(read_spec(&spec)?)?;
-            let bytes = export::export(&report, format.into());
-            emit(&bytes, output.as_deref(), force, &spec)?;
+            let bytes = export::export(&report, out.format.into());
+            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
             Ok(if report.flagged {
                 EXIT_FLAGGED
             } else {
                 EXIT_OK
             })
+        }
+        Command::Forecast { spec, out } => {
+            let sheet = crate::forecast_only(read_spec(&spec)?)?;
+            let bytes = export::export_forecast(&sheet, out.format.into());
+            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            Ok(if sheet.flagged { EXIT_FLAGGED } else { EXIT_OK })
         }
     }
 }

@@ -3,14 +3,17 @@
 //! The data flow is one module per stage:
 //! [`spec`] (parse, units, validate) → [`solve`] (the integer LP for deliverable volumes) →
 //! [`mixing`] (the two portions mixed at t = 0) → [`totals`] (stock to prepare) →
-//! [`report`] (the plan as data) → [`export`] (text, CSV, JSON, Markdown).
+//! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON, Markdown).
 
 pub mod cli;
 pub mod device;
 pub mod error;
 pub mod export;
+pub mod forecast;
+pub mod kinetics;
 pub mod mixing;
 pub mod output;
+pub mod presets;
 pub mod report;
 pub mod safety;
 pub mod solve;
@@ -28,5 +31,35 @@ pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
     let solution = solve::solve(&spec)?;
     let mixing = mixing::split(&spec, &solution)?;
     let totals = totals::compute(&spec, &solution);
-    Ok(report::build(&spec, &solution, &mixing, &totals))
+    let initial: Vec<_> = solution
+        .runs
+        .iter()
+        .map(|r| r.concentrations.clone())
+        .collect();
+    let forecast = forecast::forecast(&spec, &initial);
+    Ok(report::build(
+        &spec,
+        &solution,
+        &mixing,
+        &totals,
+        forecast.as_ref(),
+    ))
+}
+
+/// Forecast clock times from the target concentrations alone (no stocks or glassware needed).
+pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
+    let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let initial: Vec<Vec<(String, f64)>> = spec
+        .runs
+        .iter()
+        .map(|r| {
+            r.targets
+                .iter()
+                .map(|t| (t.species.clone(), t.concentration))
+                .collect()
+        })
+        .collect();
+    let forecast =
+        forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");
+    Ok(report::build_forecast(&spec, &forecast))
 }

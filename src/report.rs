@@ -1,6 +1,8 @@
 //! The plan as data: everything a sheet shows, with units in every field name, built once from
 //! the stages before it. Exporters only format this; they compute nothing.
 
+use crate::forecast::{Forecast, RunForecast};
+use crate::kinetics::Reaction;
 use crate::mixing::{Mixing, Portion};
 use crate::safety;
 use crate::solve::{Flag, Solution};
@@ -11,6 +13,8 @@ use serde::{Serialize, Serializer};
 
 /// Version tag of the JSON layout; bumped when a field changes meaning or goes away.
 pub const FORMAT: &str = "clockprep-plan/1";
+/// Version tag of the `clockprep forecast` JSON layout.
+pub const FORECAST_FORMAT: &str = "clockprep-forecast/1";
 
 /// A map that keeps its insertion order when serialised (species in the order of the stocks).
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -83,6 +87,81 @@ pub struct RunReport {
     pub ionic_strength: f64,
     pub portions: Portions,
     pub flags: Vec<Flag>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub forecast: Option<ForecastReport>,
+}
+
+/// The forecast of one run. Times in s, temperatures in °C, rates in mol L⁻¹ s⁻¹.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ForecastReport {
+    #[serde(rename = "temperature_C")]
+    pub temperature_c: f64,
+    /// Cool and warm ends of the band.
+    #[serde(rename = "band_C")]
+    pub band_c: [f64; 2],
+    /// The reported time to colour at the planned temperature (clock plus visible wait).
+    pub time_s: Option<f64>,
+    /// "visible colour" when a visible threshold is known, else "clock".
+    pub uses: &'static str,
+    /// Until the timing reagent is used up.
+    pub clock_s: Option<f64>,
+    /// From then until the colour is visible.
+    pub visible_extra_s: Option<f64>,
+    /// Time to colour at the warm (fast) and cool (slow) ends of the band.
+    pub band_s: Option<[f64; 2]>,
+    /// The initial-rate approximation [timing]₀/(ν r₀) of the clock time.
+    pub initial_rate_s: Option<f64>,
+    /// (approximation − exact clock time)/exact, percent.
+    pub initial_rate_difference_pct: Option<f64>,
+    /// The rate a student computes from the predicted time: [timing]₀/(ν t).
+    #[serde(rename = "rate_M_per_s")]
+    pub rate: Option<f64>,
+    /// The true initial rate r₀ of the prior rate law.
+    #[serde(rename = "initial_rate_M_per_s")]
+    pub initial_rate: Option<f64>,
+    /// Largest fraction of a reactant used up at the clock, and which one.
+    pub max_conversion: Option<f64>,
+    pub max_conversion_species: Option<String>,
+    pub warnings: Vec<Flag>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TermReport {
+    /// k in SI units (M^(1−n) s⁻¹), at `at_C`.
+    pub k: f64,
+    pub k_unit: String,
+    #[serde(rename = "at_C")]
+    pub at_c: f64,
+    #[serde(rename = "activation_energy_kJ_per_mol")]
+    pub activation_energy: Option<f64>,
+    pub orders: Ordered,
+    pub source: Option<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReactionReport {
+    pub name: String,
+    pub rate_species: String,
+    pub timing_species: String,
+    pub intermediate: String,
+    /// mol of timing reagent per mol of rate species.
+    pub nu: f64,
+    pub terms: Vec<TermReport>,
+    #[serde(rename = "visible_threshold_M")]
+    pub visible_threshold: Option<f64>,
+    pub visible_source: Option<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ForecastSettingsReport {
+    #[serde(rename = "temperature_C")]
+    pub temperature_c: f64,
+    /// Half-width of the band, °C (= K).
+    #[serde(rename = "band_C")]
+    pub band_c: f64,
+    pub window_s: [f64; 2],
+    pub lab_period_s: Option<f64>,
+    pub handling_per_run_s: f64,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -149,9 +228,45 @@ pub struct PlanReport {
     pub stock_totals: Vec<StockTotal>,
     #[serde(rename = "water_total_mL")]
     pub water_total_ml: f64,
-    /// True when any run carries a flag.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub reaction: Option<ReactionReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub forecast_settings: Option<ForecastSettingsReport>,
+    /// Plan-wide warnings (e.g. a session longer than the lab period).
+    pub warnings: Vec<Flag>,
+    /// True when any run carries a flag or forecast warning, or the plan a warning.
     pub flagged: bool,
     pub cautions: Vec<String>,
+}
+
+/// The output of `clockprep forecast`: forecasts from the target concentrations alone.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ForecastSheet {
+    pub format: &'static str,
+    pub title: String,
+    pub spec: String,
+    pub timing: TimingTarget,
+    pub reaction: ReactionReport,
+    pub forecast_settings: ForecastSettingsReport,
+    pub runs: Vec<ForecastRun>,
+    pub warnings: Vec<Flag>,
+    pub flagged: bool,
+    pub cautions: Vec<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TimingTarget {
+    pub species: String,
+    #[serde(rename = "concentration_M")]
+    pub concentration: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ForecastRun {
+    pub name: String,
+    /// The run's targets, mol/L.
+    pub concentrations: Ordered,
+    pub forecast: ForecastReport,
 }
 
 /// mL with float noise removed (volumes are whole steps of at least 0.001 µL).
@@ -177,7 +292,126 @@ fn sig10(v: f64) -> f64 {
     format!("{v:.9e}").parse().unwrap_or(v)
 }
 
-pub fn build(spec: &Spec, solution: &Solution, mixing: &Mixing, totals: &Totals) -> PlanReport {
+fn forecast_report(f: &RunForecast) -> ForecastReport {
+    let c = |t: f64| sig10(t - 273.15);
+    let max = f.max_conversion();
+    ForecastReport {
+        temperature_c: c(f.temperature),
+        band_c: [c(f.band.0), c(f.band.1)],
+        time_s: f.time().map(sig10),
+        uses: if f.uses_visible {
+            "visible colour"
+        } else {
+            "clock"
+        },
+        clock_s: f.timing.map(|t| sig10(t.clock)),
+        visible_extra_s: f
+            .timing
+            .filter(|_| f.uses_visible)
+            .map(|t| sig10(t.visible_extra)),
+        band_s: f.band_times.map(|(a, b)| [sig10(a), sig10(b)]),
+        initial_rate_s: f.timing.map(|t| sig10(t.initial_rate)),
+        initial_rate_difference_pct: f
+            .timing
+            .map(|t| sig10((t.initial_rate - t.clock) / t.clock * 100.0)),
+        rate: f.implied_rate.map(sig10),
+        initial_rate: f.timing.map(|t| sig10(t.rate0)),
+        max_conversion: max.map(|m| sig10(m.1)),
+        max_conversion_species: max.map(|m| m.0.to_string()),
+        warnings: f.warnings.clone(),
+    }
+}
+
+fn unit_of_k(order: f64) -> String {
+    let p = 1.0 - order;
+    if p == 0.0 {
+        "s^-1".into()
+    } else {
+        format!("M^{p} s^-1")
+    }
+}
+
+fn reaction_report(r: &Reaction) -> ReactionReport {
+    ReactionReport {
+        name: r.name.clone(),
+        rate_species: r.rate_species.clone(),
+        timing_species: r.timing_species.clone(),
+        intermediate: r.intermediate.clone(),
+        nu: sig10(r.nu),
+        terms: r
+            .terms
+            .iter()
+            .map(|t| TermReport {
+                k: sig10(t.k_ref),
+                k_unit: unit_of_k(t.overall_order()),
+                at_c: sig10(t.t_ref - 273.15),
+                activation_energy: t.activation_energy.map(|e| sig10(e / 1e3)),
+                orders: Ordered(t.orders.clone()),
+                source: t.source.clone(),
+            })
+            .collect(),
+        visible_threshold: r.visible.as_ref().map(|v| sig10(v.threshold)),
+        visible_source: r.visible.as_ref().and_then(|v| v.source.clone()),
+    }
+}
+
+fn settings_report(spec: &Spec) -> Option<ForecastSettingsReport> {
+    spec.forecast.as_ref().map(|f| ForecastSettingsReport {
+        temperature_c: sig10(f.temperature - 273.15),
+        band_c: sig10(f.band),
+        window_s: [sig10(f.window.0), sig10(f.window.1)],
+        lab_period_s: f.lab_period.map(sig10),
+        handling_per_run_s: sig10(f.handling),
+    })
+}
+
+/// The report of `clockprep forecast`.
+pub fn build_forecast(spec: &Spec, forecast: &Forecast) -> ForecastSheet {
+    let reaction = spec.reaction.as_ref().expect("a forecast has a reaction");
+    let species: Vec<&str> = spec
+        .runs
+        .iter()
+        .flat_map(|r| r.targets.iter().map(|t| t.species.as_str()))
+        .chain([spec.timing.species.as_str()])
+        .collect();
+    ForecastSheet {
+        format: FORECAST_FORMAT,
+        title: spec.title.clone(),
+        spec: spec.source.name.clone(),
+        timing: TimingTarget {
+            species: spec.timing.species.clone(),
+            concentration: sig10(spec.timing.concentration),
+        },
+        reaction: reaction_report(reaction),
+        forecast_settings: settings_report(spec).expect("a forecast has settings"),
+        runs: spec
+            .runs
+            .iter()
+            .zip(&forecast.runs)
+            .map(|(r, f)| ForecastRun {
+                name: r.name.clone(),
+                concentrations: Ordered(
+                    r.targets
+                        .iter()
+                        .map(|t| (t.species.clone(), sig10(t.concentration)))
+                        .collect(),
+                ),
+                forecast: forecast_report(f),
+            })
+            .collect(),
+        warnings: forecast.warnings.clone(),
+        flagged: forecast.flagged(),
+        cautions: safety::cautions(species),
+    }
+}
+
+pub fn build(
+    spec: &Spec,
+    solution: &Solution,
+    mixing: &Mixing,
+    totals: &Totals,
+    forecast: Option<&Forecast>,
+) -> PlanReport {
     let name =
         |s: Option<usize>| s.map_or_else(|| "water".to_string(), |s| spec.stocks[s].name.clone());
     let pour = format!("{} into {}", mixing.poured, mixing.poured.other());
@@ -265,14 +499,21 @@ pub fn build(spec: &Spec, solution: &Solution, mixing: &Mixing, totals: &Totals)
                     pour: pour.clone(),
                 },
                 flags: r.flags.clone(),
+                forecast: None,
             }
         })
         .collect::<Vec<_>>();
+    let mut runs = runs;
+    if let Some(f) = forecast {
+        for (r, rf) in runs.iter_mut().zip(&f.runs) {
+            r.forecast = Some(forecast_report(rf));
+        }
+    }
 
     let timing_add = solution.runs[0]
         .additions
         .iter()
-        .find(|a| a.stock == Some(spec.timing.stock))
+        .find(|a| a.stock == Some(spec.timing_stock()))
         .expect("the timing stock is in every run");
 
     let species_used: Vec<&str> = solution
@@ -294,7 +535,7 @@ pub fn build(spec: &Spec, solution: &Solution, mixing: &Mixing, totals: &Totals)
         timing: TimingReport {
             species: spec.timing.species.clone(),
             concentration: sig10(spec.timing.concentration),
-            stock: name(Some(spec.timing.stock)),
+            stock: name(Some(spec.timing_stock())),
             ml: ml(timing_add.volume),
             device: timing_add.delivery.describe(&spec.devices),
         },
@@ -321,7 +562,11 @@ pub fn build(spec: &Spec, solution: &Solution, mixing: &Mixing, totals: &Totals)
                 ),
             })
             .collect(),
-        flagged: runs.iter().any(|r: &RunReport| !r.flags.is_empty()),
+        flagged: runs.iter().any(|r: &RunReport| !r.flags.is_empty())
+            || forecast.is_some_and(|f| f.flagged()),
+        reaction: spec.reaction.as_ref().map(reaction_report),
+        forecast_settings: settings_report(spec),
+        warnings: forecast.map(|f| f.warnings.clone()).unwrap_or_default(),
         runs,
         stock_totals: totals
             .stocks

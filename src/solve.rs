@@ -169,7 +169,8 @@ fn targets_key(run: &Run) -> Vec<(String, u64)> {
 fn constant_additions(spec: &Spec) -> Result<Constant> {
     let mut additions = Vec::new();
     let t = &spec.timing;
-    let stock = &spec.stocks[t.stock];
+    let timing_stock = spec.timing_stock();
+    let stock = &spec.stocks[timing_stock];
     let c_stock = stock.concentration_of(&t.species);
     let v_timing = t.concentration * spec.total_volume / c_stock;
     let fixed_sum: f64 = spec.stocks.iter().filter_map(|s| s.fixed_volume).sum();
@@ -239,7 +240,7 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
         )
     })?;
     additions.push(Addition {
-        stock: Some(t.stock),
+        stock: Some(timing_stock),
         volume: v_timing,
         delivery,
     });

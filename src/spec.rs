@@ -61,19 +61,21 @@ struct RawSpec {
     device: Vec<Spanned<RawDevice>>,
     #[serde(default)]
     run: Vec<Spanned<RawRun>>,
+    reaction: Option<Spanned<RawReaction>>,
 }
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawPlan {
     title: Name,
-    total_volume: Q,
+    total_volume: Option<Q>,
     stations: Option<Spanned<i64>>,
     replicates: Option<Spanned<i64>>,
     overage: Option<Q>,
     temperature: Option<Q>,
     tolerance: Option<Q>,
     flasks: Option<Vec<Q>>,
+    temperature_band: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -81,6 +83,39 @@ struct RawPlan {
 struct RawTiming {
     species: Name,
     concentration: Q,
+    window: Option<Spanned<Vec<Q>>>,
+    lab_period: Option<Q>,
+    handling_per_run: Option<Q>,
+}
+
+/// A `[reaction]` table, or a preset file (same keys, without `preset`).
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawReaction {
+    preset: Option<Name>,
+    description: Option<String>,
+    rate_species: Option<Name>,
+    main: Option<Name>,
+    clock: Option<Name>,
+    visible: Option<Spanned<RawVisible>>,
+    term: Option<Vec<Spanned<RawTerm>>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawVisible {
+    threshold: Q,
+    source: Option<String>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTerm {
+    k: Q,
+    at: Q,
+    activation_energy: Option<Q>,
+    orders: Spanned<Entries<Spanned<Value>>>,
+    source: Option<String>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -236,9 +271,40 @@ pub struct Timing {
     pub species: String,
     /// mol/L, identical in every run.
     pub concentration: f64,
-    /// Index of the one stock that holds the timing species.
-    pub stock: usize,
+    /// Index of the one stock that holds the timing species (always set when planning; a
+    /// forecast-only spec may have no stocks).
+    pub stock: Option<usize>,
     pub span: Range<usize>,
+}
+
+/// What a forecast needs beyond the rate law: temperatures, the timing window, the lab period.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ForecastSettings {
+    /// Planned room temperature, K.
+    pub temperature: f64,
+    /// Half-width of the temperature band, K.
+    pub band: f64,
+    /// Shortest and longest time (s) that can be timed well in class.
+    pub window: (f64, f64),
+    /// Length of the lab period (s), if the station's session should be checked against it.
+    pub lab_period: Option<f64>,
+    /// Handling time per trial (s): mixing, reading, rinsing.
+    pub handling: f64,
+}
+
+/// Default timing window: 15 s to 10 min. The lower end keeps a human reaction time of about
+/// 0.3 s under a 2 % timing error (0.3/0.02 = 15 s); both ends are common practice.
+pub const DEFAULT_WINDOW_S: (f64, f64) = (15.0, 600.0);
+/// Default temperature band half-width, K (common practice: a lab room drifts a few degrees).
+pub const DEFAULT_BAND_K: f64 = 3.0;
+/// Default handling time per trial, s (common practice: mixing, reading and rinsing).
+pub const DEFAULT_HANDLING_S: f64 = 180.0;
+
+/// What the spec is read for: planning needs stocks and glassware, a forecast only targets.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Purpose {
+    Plan,
+    Forecast,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -270,7 +336,7 @@ pub struct Mixing {
 pub struct Spec {
     pub source: SpecSource,
     pub title: String,
-    /// L
+    /// L (0 in a spec read only for a forecast, which needs no volumes)
     pub total_volume: f64,
     pub total_span: Range<usize>,
     pub stations: u32,
@@ -291,6 +357,19 @@ pub struct Spec {
     pub mixing: Mixing,
     pub ionic: Option<IonicHold>,
     pub runs: Vec<Run>,
+    /// The prior rate law, when the spec gives one.
+    pub reaction: Option<crate::kinetics::Reaction>,
+    /// Present exactly when `reaction` is.
+    pub forecast: Option<ForecastSettings>,
+}
+
+impl Spec {
+    /// The timing stock of a spec read for planning (checked there to exist).
+    pub fn timing_stock(&self) -> usize {
+        self.timing
+            .stock
+            .expect("a spec read for planning has a timing stock")
+    }
 }
 
 /// Default volumetric flask sizes (mL): the common stock sizes (common practice).
@@ -300,25 +379,38 @@ pub const DEFAULT_FLASKS_ML: [f64; 5] = [50.0, 100.0, 250.0, 500.0, 1000.0];
 // Reading and checking
 // ---------------------------------------------------------------------------------------------
 
-/// Parse and check a spec.
+/// Parse and check a spec for planning.
 pub fn load(source: SpecSource) -> Result<Spec> {
-    let raw: RawSpec = toml::from_str(&source.text).map_err(|e| {
-        let span = e.span().unwrap_or(0..0);
-        let msg = e.message().trim().to_string();
-        let help = if msg.contains("unknown field") {
-            "remove the key or fix its spelling; the README lists every key a spec accepts"
-        } else if msg.contains("missing field") {
-            "add the missing key; the README shows a complete spec"
-        } else {
-            "fix the TOML syntax here; strings need double quotes, e.g. total_volume = \"30.0 mL\""
-        };
-        source.error(span, format!("the spec is not valid: {msg}"), "here", help)
-    })?;
-    Checker { src: &source }.check(raw, source.clone())
+    load_for(source, Purpose::Plan)
+}
+
+/// Parse and check a spec for a purpose.
+pub fn load_for(source: SpecSource, purpose: Purpose) -> Result<Spec> {
+    let raw: RawSpec = toml::from_str(&source.text).map_err(|e| toml_error(&source, e))?;
+    Checker {
+        src: &source,
+        purpose,
+    }
+    .check(raw, source.clone())
+}
+
+/// Map a TOML error to a located spec error.
+fn toml_error(source: &SpecSource, e: toml::de::Error) -> Error {
+    let span = e.span().unwrap_or(0..0);
+    let msg = e.message().trim().to_string();
+    let help = if msg.contains("unknown field") {
+        "remove the key or fix its spelling; the README lists every key a spec accepts"
+    } else if msg.contains("missing field") {
+        "add the missing key; the README shows a complete spec"
+    } else {
+        "fix the TOML syntax here; strings need double quotes, e.g. total_volume = \"30.0 mL\""
+    };
+    source.error(span, format!("the spec is not valid: {msg}"), "here", help)
 }
 
 struct Checker<'a> {
     src: &'a SpecSource,
+    purpose: Purpose,
 }
 
 fn inner(span: Range<usize>, text: &str) -> Range<usize> {
@@ -452,7 +544,23 @@ impl Checker<'_> {
                 "e.g. title = \"Section 3 rate law\"",
             ));
         }
-        let total_volume = self.positive(&plan.total_volume, Kind::Volume, "total_volume")?;
+        // A forecast needs no volumes; planning does.
+        let (total_volume, total_span) = match &plan.total_volume {
+            Some(q) => (
+                self.positive(q, Kind::Volume, "total_volume")?,
+                inner(q.span(), &self.src.text),
+            ),
+            None if self.purpose == Purpose::Forecast => (0.0, raw.plan.span()),
+            None => {
+                let at = raw.plan.span().start;
+                return Err(self.err(
+                    at..at,
+                    "[plan] needs total_volume",
+                    "in [plan]",
+                    "add the volume of every run, e.g. total_volume = \"50.0 mL\"",
+                ));
+            }
+        };
         let stations = self.count(&plan.stations, "stations", 1)?;
         let replicates = self.count(&plan.replicates, "replicates", 1)?;
         let overage = match &plan.overage {
@@ -531,7 +639,7 @@ impl Checker<'_> {
             }
             devices.push(dev);
         }
-        if devices.is_empty() {
+        if devices.is_empty() && self.purpose == Purpose::Plan {
             return Err(self.err(0..0, "the spec lists no glassware", "", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
         }
         let all_devices: Vec<usize> = (0..devices.len()).collect();
@@ -647,7 +755,12 @@ impl Checker<'_> {
                 name_span: inner(r.name.span(), &self.src.text),
             });
         }
-        if stocks.is_empty() {
+        // A forecast needs no stocks; when a forecast-only spec lists none, species are not
+        // checked against them.
+        let check_species = self.purpose == Purpose::Plan || !stocks.is_empty();
+        if !check_species {
+            // fall through: nothing to check against
+        } else if stocks.is_empty() {
             return Err(self.err(
                 0..0,
                 "the spec lists no stocks",
@@ -684,8 +797,9 @@ impl Checker<'_> {
             .collect();
         let timing_stock =
             match holders.as_slice() {
+                [] if !check_species => None,
                 [] => return Err(unknown_species(&t.species, &timing_species)),
-                [one] => *one,
+                [one] => Some(*one),
                 [_, second, ..] => return Err(self.err(
                     stocks[*second].name_span.clone(),
                     format!("the timing species {timing_species} is in more than one stock"),
@@ -722,7 +836,7 @@ impl Checker<'_> {
                     let mut group = Vec::new();
                     for n in g.get_ref() {
                         let sp = self.species(n)?;
-                        if !known.contains(sp.as_str()) {
+                        if check_species && !known.contains(sp.as_str()) {
                             return Err(unknown_species(n, &sp));
                         }
                         group.push(sp);
@@ -788,7 +902,7 @@ impl Checker<'_> {
                         "use a salt stock whose species carry charges, e.g. \"K+\" and \"NO3-\"",
                     ));
                 }
-                if stock == timing_stock || stocks[stock].fixed_volume.is_some() {
+                if Some(stock) == timing_stock || stocks[stock].fixed_volume.is_some() {
                     return Err(self.err(
                         inner(r.using.span(), &self.src.text),
                         "the inert salt must be a stock whose volume may vary",
@@ -832,7 +946,7 @@ impl Checker<'_> {
             let mut targets = Vec::new();
             for (k, q) in entries {
                 let sp = self.species(k)?;
-                if !known.contains(sp.as_str()) {
+                if check_species && !known.contains(sp.as_str()) {
                     return Err(unknown_species(k, &sp));
                 }
                 if sp == timing_species {
@@ -889,11 +1003,38 @@ impl Checker<'_> {
             }
         }
 
+        // Reaction and forecast settings
+        let available = |sp: &str| {
+            if check_species {
+                known.contains(sp)
+            } else {
+                runs[0].targets.iter().any(|t| t.species == sp)
+            }
+        };
+        let reaction = match &raw.reaction {
+            None if self.purpose == Purpose::Forecast => return Err(self.err(
+                0..0,
+                "a forecast needs a [reaction]",
+                "",
+                format!(
+                    "add [reaction] with preset = \"{}\" (presets: {}), or spell out its rate law",
+                    crate::presets::NAMES[0],
+                    crate::presets::NAMES.join(", ")
+                ),
+            )),
+            None => None,
+            Some(r) => Some(self.reaction(r, &timing_species, &available)?),
+        };
+        let forecast = match &reaction {
+            None => None,
+            Some(_) => Some(self.forecast_settings(&raw.plan, plan, t, temperature)?),
+        };
+
         Ok(Spec {
             source,
             title,
             total_volume,
-            total_span: inner(plan.total_volume.span(), &self.src.text),
+            total_span,
             stations,
             replicates,
             overage,
@@ -913,7 +1054,373 @@ impl Checker<'_> {
             mixing,
             ionic,
             runs,
+            reaction,
+            forecast,
         })
+    }
+
+    /// The text of a string quantity and the span inside its quotes; a bare number is an error.
+    fn text<'q>(&self, q: &'q Q, field: &str, example: &str) -> Result<(&'q str, Range<usize>)> {
+        match q.get_ref() {
+            Value::String(s) => Ok((s.as_str(), inner(q.span(), &self.src.text))),
+            Value::Integer(_) | Value::Float(_) => Err(self.err(
+                q.span(),
+                format!("{field}: a bare number has no unit"),
+                "no unit",
+                format!("write it as a string with its unit, e.g. {field} = {example}"),
+            )),
+            _ => Err(self.err(
+                q.span(),
+                format!("{field}: expected a quantity"),
+                "not a quantity",
+                format!("e.g. {field} = {example}"),
+            )),
+        }
+    }
+
+    /// A quantity read by a special parser (rate constants, energies, differences).
+    fn special<T>(
+        &self,
+        q: &Q,
+        field: &str,
+        noun: Kind,
+        example: &str,
+        parse: impl Fn(&str) -> std::result::Result<T, units::UnitError>,
+    ) -> Result<T> {
+        let (text, at) = self.text(q, field, example)?;
+        parse(text).map_err(|e| {
+            let r = e.range(text.len());
+            let span = if r.is_empty() {
+                at.clone()
+            } else {
+                at.start + r.start..at.start + r.end
+            };
+            self.err(
+                span,
+                format!("{field}: {}", e.describe(noun)),
+                "here",
+                format!("e.g. {field} = {example}"),
+            )
+        })
+    }
+
+    fn forecast_settings(
+        &self,
+        plan_span: &Spanned<RawPlan>,
+        plan: &RawPlan,
+        t: &RawTiming,
+        temperature: Option<f64>,
+    ) -> Result<ForecastSettings> {
+        let temperature = temperature.ok_or_else(|| {
+            self.err(
+                plan_span.span().start..plan_span.span().start,
+                "a forecast needs the planned room temperature",
+                "in [plan]",
+                "add temperature = \"21 °C\" to [plan]",
+            )
+        })?;
+        let band = match &plan.temperature_band {
+            None => DEFAULT_BAND_K,
+            Some(q) => {
+                let b = self.special(
+                    q,
+                    "temperature_band",
+                    Kind::Temperature,
+                    "\"3 °C\"",
+                    units::parse_temperature_difference,
+                )?;
+                if !(0.0..=15.0).contains(&b) {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "temperature_band must be from 0 to 15 °C",
+                        "out of range",
+                        "e.g. temperature_band = \"3 °C\"",
+                    ));
+                }
+                if temperature - b < 273.15 || temperature + b > 333.15 {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "the temperature band reaches outside 0–60 °C",
+                        "out of range",
+                        "narrow the band or plan for a temperature nearer the room's",
+                    ));
+                }
+                b
+            }
+        };
+        let window = match &t.window {
+            None => DEFAULT_WINDOW_S,
+            Some(w) => {
+                let [lo, hi] = w.get_ref().as_slice() else {
+                    return Err(self.err(
+                        w.span(),
+                        "window needs two times: shortest and longest",
+                        "here",
+                        "e.g. window = [\"15 s\", \"10 min\"]",
+                    ));
+                };
+                let lo = self.positive(lo, Kind::Time, "window")?;
+                let hi = self.positive(hi, Kind::Time, "window")?;
+                if lo >= hi {
+                    return Err(self.err(
+                        w.span(),
+                        "window runs from longer to shorter",
+                        "reversed",
+                        "write the shortest time first, e.g. window = [\"15 s\", \"10 min\"]",
+                    ));
+                }
+                (lo, hi)
+            }
+        };
+        let lab_period = t
+            .lab_period
+            .as_ref()
+            .map(|q| self.positive(q, Kind::Time, "lab_period"))
+            .transpose()?;
+        let handling = match &t.handling_per_run {
+            None => DEFAULT_HANDLING_S,
+            Some(q) => {
+                let v = self.qty(q, Kind::Time, "handling_per_run")?;
+                if v < 0.0 {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "handling_per_run cannot be negative",
+                        "negative",
+                        "e.g. handling_per_run = \"3 min\"",
+                    ));
+                }
+                v
+            }
+        };
+        Ok(ForecastSettings {
+            temperature,
+            band,
+            window,
+            lab_period,
+            handling,
+        })
+    }
+
+    /// The `[reaction]` table, with any preset filled in under the keys the spec leaves out.
+    fn reaction(
+        &self,
+        r: &Spanned<RawReaction>,
+        timing: &str,
+        available: &dyn Fn(&str) -> bool,
+    ) -> Result<crate::kinetics::Reaction> {
+        use crate::kinetics::{parse_equation, Reaction, Term, Visible, MAX_TERMS};
+        let raw = r.get_ref();
+        let table = r.span().start..r.span().start;
+        let preset = match &raw.preset {
+            None => None,
+            Some(name) => {
+                let key = name.get_ref().trim();
+                let text = crate::presets::get(key).ok_or_else(|| {
+                    self.err(
+                        inner(name.span(), &self.src.text),
+                        format!("unknown reaction preset '{key}'"),
+                        "no such preset",
+                        format!("presets: {}", crate::presets::NAMES.join(", ")),
+                    )
+                })?;
+                let src = SpecSource::new(format!("preset {key}"), text);
+                let parsed: RawReaction = toml::from_str(text).map_err(|e| toml_error(&src, e))?;
+                Some((key.to_string(), src, parsed))
+            }
+        };
+        let preset_checker = preset.as_ref().map(|(_, src, _)| Checker {
+            src,
+            purpose: self.purpose,
+        });
+        let missing = |what: &str, example: &str| {
+            self.err(
+                table.clone(),
+                format!("[reaction] needs {what}"),
+                "incomplete reaction",
+                format!(
+                    "add {example}, or use a preset ({})",
+                    crate::presets::NAMES.join(", ")
+                ),
+            )
+        };
+        // Each key: the spec's own value, else the preset's (checked against the preset text).
+        let pick_name = |own: &Option<Name>,
+                         theirs: &dyn Fn(&RawReaction) -> Option<Name>|
+         -> Option<(&Checker, Name)> {
+            if let Some(v) = own {
+                return Some((self, v.clone()));
+            }
+            let (_, _, p) = preset.as_ref()?;
+            theirs(p).map(|v| (preset_checker.as_ref().expect("preset checker"), v))
+        };
+        let (c, rate_name) = pick_name(&raw.rate_species, &|p| p.rate_species.clone())
+            .ok_or_else(|| missing("rate_species", "rate_species = \"BrO3-\""))?;
+        let rate_species = c.species(&rate_name)?;
+        let equation = |c: &Checker, n: &Name| {
+            parse_equation(n.get_ref()).map_err(|e| {
+                let at = inner(n.span(), &c.src.text);
+                c.err(
+                    at.start + e.at.start..at.start + e.at.end,
+                    format!("equation: {}", e.message),
+                    "here",
+                    "e.g. main = \"BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O\"",
+                )
+            })
+        };
+        let (mc, main_name) = pick_name(&raw.main, &|p| p.main.clone()).ok_or_else(|| {
+            missing(
+                "main (the main reaction)",
+                "main = \"BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O\"",
+            )
+        })?;
+        let main = equation(mc, &main_name)?;
+        let (cc, clock_name) = pick_name(&raw.clock, &|p| p.clock.clone()).ok_or_else(|| {
+            missing(
+                "clock (the clock reaction)",
+                "clock = \"I2 + 2 S2O3^2- -> 2 I- + S4O6^2-\"",
+            )
+        })?;
+        let clock = equation(cc, &clock_name)?;
+
+        let (tc, raw_terms): (&Checker, &Vec<Spanned<RawTerm>>) = match (
+            &raw.term,
+            preset.as_ref().and_then(|(_, _, p)| p.term.as_ref()),
+        ) {
+            (Some(t), _) => (self, t),
+            (None, Some(t)) => (preset_checker.as_ref().expect("preset checker"), t),
+            (None, None) => {
+                return Err(missing(
+                    "at least one [[reaction.term]]",
+                    "[[reaction.term]] with k, at, orders",
+                ))
+            }
+        };
+        if raw_terms.is_empty() || raw_terms.len() > MAX_TERMS {
+            return Err(self.err(
+                table.clone(),
+                format!("a rate law needs 1 to {MAX_TERMS} terms"),
+                "here",
+                "one term is the common case; two cover an acid-assisted path",
+            ));
+        }
+        let mut terms = Vec::new();
+        for rt in raw_terms {
+            let t = rt.get_ref();
+            let mut orders = Vec::new();
+            for (k, v) in &t.orders.get_ref().0 {
+                let sp = tc.species(k)?;
+                let n = match v.get_ref() {
+                    Value::Integer(i) => *i as f64,
+                    Value::Float(f) => *f,
+                    _ => f64::NAN,
+                };
+                if !n.is_finite() || !(-2.0..=5.0).contains(&n) {
+                    return Err(tc.err(v.span(), format!("the order in {sp} must be a number from -2 to 5"), "not an order", "e.g. orders = { \"BrO3-\" = 1, \"H+\" = 2 } (fractions such as 0.5 are fine)"));
+                }
+                if !available(&sp) {
+                    return Err(tc.err(
+                        inner(k.span(), &tc.src.text),
+                        format!(
+                            "the rate law needs {sp}, but {}",
+                            if self.purpose == Purpose::Plan {
+                                "no stock contains it"
+                            } else {
+                                "the runs give no concentration for it"
+                            }
+                        ),
+                        "missing from the runs",
+                        "add it to the stocks and run targets, or change the rate law",
+                    ));
+                }
+                orders.push((sp, n));
+            }
+            if orders.is_empty() {
+                return Err(tc.err(
+                    t.orders.span(),
+                    "a rate-law term needs orders",
+                    "empty",
+                    "e.g. orders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }",
+                ));
+            }
+            let k = tc.special(
+                &t.k,
+                "k",
+                Kind::Time,
+                "\"40 M^-3 s^-1\"",
+                units::parse_rate_constant,
+            )?;
+            let overall: f64 = orders.iter().map(|(_, n)| n).sum();
+            if (k.conc_exponent - (1.0 - overall)).abs() > 1e-9 {
+                return Err(tc.err(
+                    inner(t.k.span(), &tc.src.text),
+                    format!("k has units of M^{} s^-1, but a term of overall order {overall} needs M^{} s^-1", k.conc_exponent, 1.0 - overall),
+                    "units do not match the orders",
+                    format!("write k in M^{} s^-1 (or the same in L, mol and min)", 1.0 - overall),
+                ));
+            }
+            if k.value <= 0.0 {
+                return Err(tc.err(
+                    inner(t.k.span(), &tc.src.text),
+                    "k must be greater than zero",
+                    "not positive",
+                    "e.g. k = \"40 M^-3 s^-1\"",
+                ));
+            }
+            let t_ref = tc.qty(&t.at, Kind::Temperature, "at")?;
+            let activation_energy = match &t.activation_energy {
+                None => None,
+                Some(q) => {
+                    let ea = tc.special(
+                        q,
+                        "activation_energy",
+                        Kind::Fraction,
+                        "\"54 kJ/mol\"",
+                        units::parse_energy,
+                    )?;
+                    if !(0.0..=300_000.0).contains(&ea) {
+                        return Err(tc.err(
+                            inner(q.span(), &tc.src.text),
+                            "activation_energy must be from 0 to 300 kJ/mol",
+                            "out of range",
+                            "e.g. activation_energy = \"54 kJ/mol\"",
+                        ));
+                    }
+                    Some(ea)
+                }
+            };
+            terms.push(Term {
+                k_ref: k.value,
+                t_ref,
+                activation_energy,
+                orders,
+                source: t.source.clone(),
+            });
+        }
+
+        let visible = match (
+            &raw.visible,
+            preset.as_ref().and_then(|(_, _, p)| p.visible.as_ref()),
+        ) {
+            (Some(v), _) => Some((self, v)),
+            (None, Some(v)) => Some((preset_checker.as_ref().expect("preset checker"), v)),
+            (None, None) => None,
+        };
+        let visible = match visible {
+            None => None,
+            Some((c, v)) => Some(Visible {
+                threshold: c.positive(&v.get_ref().threshold, Kind::Concentration, "threshold")?,
+                source: v.get_ref().source.clone(),
+            }),
+        };
+        let name = match &preset {
+            Some((key, ..)) if raw.main.is_none() && raw.clock.is_none() && raw.term.is_none() => {
+                key.clone()
+            }
+            Some((key, ..)) => format!("{key} (adjusted)"),
+            None => raw.description.clone().unwrap_or_else(|| "custom".into()),
+        };
+        Reaction::new(name, rate_species, timing.to_string(), main, clock, terms, visible)
+            .map_err(|e| mc.err(inner(main_name.span(), &mc.src.text), format!("the reaction does not make a clock: {e}"), "here", "the main reaction must consume the rate species and make what the clock reaction removes with the timing species"))
     }
 
     fn device(&self, r: &RawDevice, span: Range<usize>) -> Result<Device> {
@@ -1152,7 +1659,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
     fn loads_a_small_spec() {
         let s = load_str(SMALL).unwrap();
         assert_eq!(s.stocks.len(), 3);
-        assert_eq!(s.timing.stock, 2);
+        assert_eq!(s.timing.stock, Some(2));
         assert_eq!(s.runs[0].targets[0].species, "I-");
         approx::assert_relative_eq!(s.total_volume, 0.020);
         approx::assert_relative_eq!(s.overage, 0.10);

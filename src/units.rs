@@ -226,6 +226,122 @@ pub fn parse(text: &str, expected: Kind) -> Result<f64, UnitError> {
     Ok(q.value)
 }
 
+/// A rate constant read from text: its value in M^p s⁻¹ and the concentration exponent p
+/// (for a rate law of overall order n, p must be 1 − n).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RateConstant {
+    pub value: f64,
+    pub conc_exponent: f64,
+}
+
+/// Read a rate constant such as "40 M^-3 s^-1", "0.69 L mol^-1 min^-1", "0.0115 L/mol/s" or
+/// "2.1e-3 s^-1". Factors are M (mol/L), L, mol, s, min or h, each with an optional `^power`,
+/// separated by spaces, `·` or `*`; a `/` divides by every factor after it.
+pub fn parse_rate_constant(text: &str) -> Result<RateConstant, UnitError> {
+    let p = split_number(text)?;
+    if p.unit.is_empty() {
+        return Err(UnitError::MissingUnit { at: p.number_at });
+    }
+    let (mut molar, mut litre, mut mol, mut time) = (0.0, 0.0, 0.0, 0.0);
+    let mut factor = 1.0;
+    let mut sign = 1.0;
+    let unit_start = p.unit_at.start;
+    let mut offset = 0;
+    for piece in p.unit.split_inclusive(['/', ' ', '·', '*']) {
+        let at = unit_start + offset..unit_start + offset + piece.len();
+        offset += piece.len();
+        let divides = piece.ends_with('/');
+        let word = piece.trim_end_matches(['/', ' ', '·', '*']);
+        if !word.is_empty() {
+            let (base, power) = match word.split_once('^') {
+                Some((b, e)) => (
+                    b,
+                    e.parse::<f64>().map_err(|_| UnitError::UnknownUnit {
+                        unit: word.to_string(),
+                        at: at.clone(),
+                    })?,
+                ),
+                None => (word, 1.0),
+            };
+            let power = power * sign;
+            match base {
+                "M" => molar += power,
+                "L" | "dm3" => litre += power,
+                "mol" => mol += power,
+                "s" => time += power,
+                "min" => {
+                    time += power;
+                    factor *= 60f64.powf(power);
+                }
+                "h" => {
+                    time += power;
+                    factor *= 3600f64.powf(power);
+                }
+                _ => {
+                    return Err(UnitError::UnknownUnit {
+                        unit: word.to_string(),
+                        at,
+                    })
+                }
+            }
+        }
+        if divides {
+            sign = -1.0;
+        }
+    }
+    let whole = p.unit_at.clone();
+    if (litre + mol).abs() > 1e-12 {
+        // mol^a L^b is a concentration power only when b = −a.
+        return Err(UnitError::UnknownUnit {
+            unit: p.unit.to_string(),
+            at: whole,
+        });
+    }
+    if (time + 1.0).abs() > 1e-12 {
+        return Err(UnitError::WrongKind {
+            unit: p.unit.to_string(),
+            found: Kind::Time,
+            at: whole,
+        });
+    }
+    Ok(RateConstant {
+        value: p.value * factor,
+        conc_exponent: molar + mol,
+    })
+}
+
+/// An activation energy in J/mol from "54 kJ/mol", "54000 J/mol" or "12.9 kcal/mol"
+/// (thermochemical calorie, 4.184 J).
+pub fn parse_energy(text: &str) -> Result<f64, UnitError> {
+    let p = split_number(text)?;
+    let factor = match p.unit {
+        "" => return Err(UnitError::MissingUnit { at: p.number_at }),
+        "kJ/mol" | "kJ mol^-1" => 1e3,
+        "J/mol" | "J mol^-1" => 1.0,
+        "kcal/mol" | "kcal mol^-1" => 4184.0,
+        other => {
+            return Err(UnitError::UnknownUnit {
+                unit: other.to_string(),
+                at: p.unit_at,
+            })
+        }
+    };
+    Ok(p.value * factor)
+}
+
+/// A temperature difference in kelvin from "3 °C", "3 K" or "3 degC" (no offset).
+pub fn parse_temperature_difference(text: &str) -> Result<f64, UnitError> {
+    let p = split_number(text)?;
+    match p.unit {
+        "" => Err(UnitError::MissingUnit { at: p.number_at }),
+        "°C" | "degC" | "℃" | "C" | "K" => Ok(p.value),
+        other => Err(UnitError::UnknownUnit {
+            unit: other.to_string(),
+            at: p.unit_at,
+        }),
+    }
+}
+
 /// Format a volume in mL with `decimals` places.
 pub fn ml(litres: f64, decimals: usize) -> String {
     format!("{:.*}", decimals, litres * 1e3)
@@ -349,5 +465,36 @@ mod tests {
         assert_eq!(decimals_for_step_ml(0.05), 2);
         assert_eq!(decimals_for_step_ml(0.001), 3);
         assert_eq!(decimals_for_step_ml(5.0), 0);
+    }
+
+    #[test]
+    fn rate_constants_in_si() {
+        // 0.69 L mol⁻¹ min⁻¹ = 0.0115 M⁻¹ s⁻¹ (Liebhafsky & Mohammad, J. Am. Chem. Soc. 55,
+        // 3977 (1933), acid-independent path of H2O2 + I⁻ at 25 °C).
+        let k = parse_rate_constant("0.69 L mol^-1 min^-1").unwrap();
+        assert_relative_eq!(k.value, 0.0115, max_relative = 1e-12);
+        assert_relative_eq!(k.conc_exponent, -1.0);
+        let k = parse_rate_constant("40 M^-3 s^-1").unwrap();
+        assert_relative_eq!(k.value, 40.0);
+        assert_relative_eq!(k.conc_exponent, -3.0);
+        let k = parse_rate_constant("0.0115 L/mol/s").unwrap();
+        assert_relative_eq!(k.conc_exponent, -1.0);
+        let k = parse_rate_constant("1.2 L^3 mol^-3 s^-1").unwrap();
+        assert_relative_eq!(k.conc_exponent, -3.0);
+        assert_relative_eq!(parse_rate_constant("6 h^-1").unwrap().value, 6.0 / 3600.0);
+        assert!(parse_rate_constant("40 M^-3").is_err());
+        assert!(parse_rate_constant("40 L s^-1").is_err());
+        assert!(parse_rate_constant("40 furlong^-1 s^-1").is_err());
+        assert!(parse_rate_constant("40").is_err());
+    }
+
+    #[test]
+    fn energies_and_differences() {
+        assert_relative_eq!(parse_energy("54 kJ/mol").unwrap(), 54_000.0);
+        // 1 thermochemical calorie = 4.184 J (NIST SP 811, 2008, B.9).
+        assert_relative_eq!(parse_energy("10 kcal/mol").unwrap(), 41_840.0);
+        assert!(parse_energy("54 kJ").is_err());
+        assert_relative_eq!(parse_temperature_difference("3 °C").unwrap(), 3.0);
+        assert!(parse_temperature_difference("3 mL").is_err());
     }
 }

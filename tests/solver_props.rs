@@ -104,7 +104,7 @@ proptest! {
         let text = spec_text(&c);
         let spec = clockprep::spec::load(SpecSource::new("prop.toml", text)).unwrap();
         let sol = clockprep::solve::solve(&spec).unwrap();
-        let timing = spec.timing.stock;
+        let timing = spec.timing_stock();
         let first_timing = sol.runs[0].volume_of(timing);
         for (r, run) in sol.runs.iter().zip(&c.runs) {
             // Sum to the total within 1e-9 mL.

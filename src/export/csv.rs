@@ -1,50 +1,102 @@
 use super::Exporter;
-use crate::report::PlanReport;
+use crate::report::{ForecastReport, ForecastSheet, PlanReport};
 
-/// One row per delivered volume and per species of every run, for spreadsheets.
+/// Long-format CSV for spreadsheets: one row per value.
 ///
-/// Columns: `run, row, name, vessel, mL, device, target_M, achieved_M, deviation`, where `row`
-/// is `volume`, `species`, `ionic_strength` or `stock_total`. Cells that do not apply are empty.
+/// Columns: `run, row, name, vessel, mL, device, target_M, achieved_M, deviation, value`.
+/// `row` is `volume`, `species`, `ionic_strength`, `forecast` (name = quantity with its unit,
+/// number in `value`), `warning` (name = code, text in `value`) or `stock_total`. Cells that do
+/// not apply are empty.
 pub struct Csv;
 
-impl Exporter for Csv {
-    fn export(&self, report: &PlanReport) -> Vec<u8> {
-        let mut w = csv::Writer::from_writer(Vec::new());
-        let row = |w: &mut csv::Writer<Vec<u8>>, cells: [String; 9]| {
-            w.write_record(&cells)
-                .expect("writing to memory cannot fail");
-        };
-        row(
-            &mut w,
-            [
-                "run",
-                "row",
-                "name",
-                "vessel",
-                "mL",
-                "device",
-                "target_M",
-                "achieved_M",
-                "deviation",
-            ]
-            .map(String::from),
+const HEADER: [&str; 10] = [
+    "run",
+    "row",
+    "name",
+    "vessel",
+    "mL",
+    "device",
+    "target_M",
+    "achieved_M",
+    "deviation",
+    "value",
+];
+
+struct Rows(csv::Writer<Vec<u8>>);
+
+impl Rows {
+    fn new() -> Self {
+        let mut w = Rows(csv::Writer::from_writer(Vec::new()));
+        w.put(HEADER.map(String::from));
+        w
+    }
+
+    fn put(&mut self, cells: [String; 10]) {
+        self.0
+            .write_record(&cells)
+            .expect("writing to memory cannot fail");
+    }
+
+    /// A row with only run, row kind, name and value.
+    fn value(&mut self, run: &str, row: &str, name: &str, value: String) {
+        let e = String::new;
+        self.put([
+            run.into(),
+            row.into(),
+            name.into(),
+            e(),
+            e(),
+            e(),
+            e(),
+            e(),
+            e(),
+            value,
+        ]);
+    }
+
+    fn forecast(&mut self, run: &str, f: &ForecastReport) {
+        let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
+        self.value(
+            run,
+            "forecast",
+            "temperature_C",
+            f.temperature_c.to_string(),
         );
+        self.value(run, "forecast", "time_s", opt(f.time_s));
+        self.value(run, "forecast", "clock_s", opt(f.clock_s));
+        self.value(run, "forecast", "band_fast_s", opt(f.band_s.map(|b| b[0])));
+        self.value(run, "forecast", "band_slow_s", opt(f.band_s.map(|b| b[1])));
+        self.value(run, "forecast", "initial_rate_s", opt(f.initial_rate_s));
+        self.value(run, "forecast", "rate_M_per_s", opt(f.rate));
+        self.value(run, "forecast", "max_conversion", opt(f.max_conversion));
+        for w in &f.warnings {
+            self.value(run, "warning", w.code, w.message.clone());
+        }
+    }
+
+    fn finish(self) -> Vec<u8> {
+        self.0.into_inner().expect("writing to memory cannot fail")
+    }
+}
+
+impl Exporter for Csv {
+    fn plan(&self, report: &PlanReport) -> Vec<u8> {
+        let mut w = Rows::new();
+        let e = String::new;
         for r in &report.runs {
             for v in &r.volumes {
-                row(
-                    &mut w,
-                    [
-                        r.name.clone(),
-                        "volume".into(),
-                        v.stock.clone(),
-                        v.vessel.clone(),
-                        v.ml.to_string(),
-                        v.device.clone(),
-                        String::new(),
-                        String::new(),
-                        String::new(),
-                    ],
-                );
+                w.put([
+                    r.name.clone(),
+                    "volume".into(),
+                    v.stock.clone(),
+                    v.vessel.clone(),
+                    v.ml.to_string(),
+                    v.device.clone(),
+                    e(),
+                    e(),
+                    e(),
+                    e(),
+                ]);
             }
             for (sp, c) in &r.concentrations.0 {
                 let target = r.targets.get(sp).map(|t| t.to_string()).unwrap_or_default();
@@ -53,56 +105,91 @@ impl Exporter for Csv {
                     .get(sp)
                     .map(|d| d.to_string())
                     .unwrap_or_default();
-                row(
-                    &mut w,
-                    [
-                        r.name.clone(),
-                        "species".into(),
-                        sp.clone(),
-                        String::new(),
-                        String::new(),
-                        String::new(),
-                        target,
-                        c.to_string(),
-                        dev,
-                    ],
-                );
-            }
-            let held = r.targets.get("ionic strength");
-            row(
-                &mut w,
-                [
+                w.put([
                     r.name.clone(),
-                    "ionic_strength".into(),
-                    "I".into(),
-                    String::new(),
-                    String::new(),
-                    String::new(),
-                    held.map(|t| t.to_string()).unwrap_or_default(),
-                    r.ionic_strength.to_string(),
-                    r.deviation
-                        .get("ionic strength")
-                        .map(|d| d.to_string())
-                        .unwrap_or_default(),
-                ],
-            );
+                    "species".into(),
+                    sp.clone(),
+                    e(),
+                    e(),
+                    e(),
+                    target,
+                    c.to_string(),
+                    dev,
+                    e(),
+                ]);
+            }
+            let held = r
+                .targets
+                .get("ionic strength")
+                .map(|t| t.to_string())
+                .unwrap_or_default();
+            let dev = r
+                .deviation
+                .get("ionic strength")
+                .map(|d| d.to_string())
+                .unwrap_or_default();
+            w.put([
+                r.name.clone(),
+                "ionic_strength".into(),
+                "I".into(),
+                e(),
+                e(),
+                e(),
+                held,
+                r.ionic_strength.to_string(),
+                dev,
+                e(),
+            ]);
+            for f in &r.flags {
+                w.value(&r.name, "warning", f.code, f.message.clone());
+            }
+            if let Some(f) = &r.forecast {
+                w.forecast(&r.name, f);
+            }
+        }
+        for f in &report.warnings {
+            w.value("", "warning", f.code, f.message.clone());
         }
         for t in &report.stock_totals {
-            row(
-                &mut w,
-                [
-                    String::new(),
-                    "stock_total".into(),
-                    t.stock.clone(),
-                    String::new(),
-                    t.ml.to_string(),
-                    format!("{} x {} mL flask", t.flask_count, t.flask_ml),
-                    String::new(),
-                    String::new(),
-                    String::new(),
-                ],
-            );
+            w.put([
+                e(),
+                "stock_total".into(),
+                t.stock.clone(),
+                e(),
+                t.ml.to_string(),
+                format!("{} x {} mL flask", t.flask_count, t.flask_ml),
+                e(),
+                e(),
+                e(),
+                e(),
+            ]);
         }
-        w.into_inner().expect("writing to memory cannot fail")
+        w.finish()
+    }
+
+    fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8> {
+        let mut w = Rows::new();
+        let e = String::new;
+        for r in &sheet.runs {
+            for (sp, c) in &r.concentrations.0 {
+                w.put([
+                    r.name.clone(),
+                    "species".into(),
+                    sp.clone(),
+                    e(),
+                    e(),
+                    e(),
+                    c.to_string(),
+                    e(),
+                    e(),
+                    e(),
+                ]);
+            }
+            w.forecast(&r.name, &r.forecast);
+        }
+        for f in &sheet.warnings {
+            w.value("", "warning", f.code, f.message.clone());
+        }
+        w.finish()
     }
 }

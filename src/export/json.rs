@@ -1,13 +1,22 @@
 use super::Exporter;
-use crate::report::PlanReport;
+use crate::report::{ForecastSheet, PlanReport};
+use serde::Serialize;
+
+fn pretty(value: &impl Serialize) -> Vec<u8> {
+    let mut out = serde_json::to_vec_pretty(value).expect("a report always serialises");
+    out.push(b'\n');
+    out
+}
 
 /// The report as pretty-printed JSON; the layout is documented in the README.
 pub struct Json;
 
 impl Exporter for Json {
-    fn export(&self, report: &PlanReport) -> Vec<u8> {
-        let mut out = serde_json::to_vec_pretty(report).expect("a report always serialises");
-        out.push(b'\n');
-        out
+    fn plan(&self, report: &PlanReport) -> Vec<u8> {
+        pretty(report)
+    }
+
+    fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8> {
+        pretty(sheet)
     }
 }

@@ -1,5 +1,9 @@
+use super::text::secs;
 use super::{ml_decimals, sig, Exporter};
-use crate::report::PlanReport;
+use crate::report::{
+    ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport,
+};
+use crate::solve::Flag;
 use std::fmt::Write;
 
 /// The mixing sheet as Markdown (for a course wiki or a printed handout).
@@ -24,8 +28,102 @@ fn mm(molar: f64) -> String {
     sig(molar * 1e3, 4)
 }
 
+fn flags(out: &mut String, flags: &[Flag]) {
+    for f in flags {
+        let _ = writeln!(out, "- **Flag `{}`:** {}", f.code, esc(&f.message));
+    }
+    if !flags.is_empty() {
+        out.push('\n');
+    }
+}
+
+fn forecast_text(out: &mut String, f: &ForecastReport) {
+    if let (Some(t), Some([fast, slow]), Some(approx)) = (f.time_s, f.band_s, f.initial_rate_s) {
+        let _ = writeln!(
+            out,
+            "Predicted time to {}: **{}** at {:.1} °C ({} to {} over {:.1} to {:.1} °C; initial-rate estimate {}). An estimate, not a guarantee.\n",
+            f.uses, secs(t), f.temperature_c, secs(slow), secs(fast), f.band_c[0], f.band_c[1], secs(approx)
+        );
+        if let (Some(rate), Some(c), Some(s)) =
+            (f.rate, f.max_conversion, &f.max_conversion_species)
+        {
+            let _ = writeln!(
+                out,
+                "Expected rate {rate:.3e} M/s; largest conversion at the clock {} {:.1} %.\n",
+                esc(s),
+                c * 100.0
+            );
+        }
+    }
+    flags(out, &f.warnings);
+}
+
+fn reaction_text(out: &mut String, r: &ReactionReport, s: &ForecastSettingsReport) {
+    let _ = writeln!(out, "## Rate law prior\n");
+    let _ = writeln!(
+        out,
+        "{}: rate species {}, timing species {} via {}; ν = {}. Planned {:.1} °C ± {:.1} °C; timing window {} to {}.\n",
+        esc(&r.name), esc(&r.rate_species), esc(&r.timing_species), esc(&r.intermediate), sig(r.nu, 3), s.temperature_c, s.band_c, secs(s.window_s[0]), secs(s.window_s[1])
+    );
+    let _ = writeln!(
+        out,
+        "| k | unit | at (°C) | Ea (kJ/mol) | orders | source |\n|---:|---|---:|---:|---|---|"
+    );
+    for t in &r.terms {
+        let orders: Vec<String> = t
+            .orders
+            .0
+            .iter()
+            .map(|(sp, n)| format!("{} {n}", esc(sp)))
+            .collect();
+        let _ = writeln!(
+            out,
+            "| {} | {} | {:.1} | {} | {} | {} |",
+            t.k,
+            esc(&t.k_unit),
+            t.at_c,
+            t.activation_energy
+                .map(|e| e.to_string())
+                .unwrap_or_else(|| "-".into()),
+            orders.join(", "),
+            esc(t.source.as_deref().unwrap_or("-"))
+        );
+    }
+    let _ = writeln!(
+        out,
+        "\nThis is a prior: calibrate it with a pilot run before relying on the times.\n"
+    );
+}
+
+fn cautions(out: &mut String, lines: &[String]) {
+    let _ = writeln!(out, "## Cautions\n");
+    for c in lines {
+        let _ = writeln!(out, "- {}", esc(c));
+    }
+}
+
 impl Exporter for Markdown {
-    fn export(&self, report: &PlanReport) -> Vec<u8> {
+    fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8> {
+        let mut out = String::new();
+        let _ = writeln!(out, "# Clock-time forecast: {}\n", esc(&sheet.title));
+        let _ = writeln!(out, "Timing reagent: {} {} mM in every run. Times are estimates from a prior rate law, not guarantees.\n", esc(&sheet.timing.species), mm(sheet.timing.concentration));
+        flags(&mut out, &sheet.warnings);
+        for r in &sheet.runs {
+            let conc: Vec<String> = r
+                .concentrations
+                .0
+                .iter()
+                .map(|(s, c)| format!("{} {} mM", esc(s), mm(*c)))
+                .collect();
+            let _ = writeln!(out, "## {}\n\n{}\n", esc(&r.name), conc.join(", "));
+            forecast_text(&mut out, &r.forecast);
+        }
+        reaction_text(&mut out, &sheet.reaction, &sheet.forecast_settings);
+        cautions(&mut out, &sheet.cautions);
+        out.into_bytes()
+    }
+
+    fn plan(&self, report: &PlanReport) -> Vec<u8> {
         let dec = ml_decimals(report);
         let mut out = String::new();
         let _ = writeln!(out, "# Mixing sheet: {}\n", esc(&report.title));
@@ -59,21 +157,34 @@ impl Exporter for Markdown {
                 "> **Flagged:** some runs need a look; see the flags under each run.\n"
             );
         }
+        flags(&mut out, &report.warnings);
 
         let _ = writeln!(out, "## Volumes per run (mL)\n");
-        let stocks: Vec<String> = report.runs[0]
+        let mut stocks: Vec<String> = report.runs[0]
             .volumes
             .iter()
             .map(|v| esc(&v.stock))
             .collect();
+        let forecast = report.reaction.is_some();
+        if forecast {
+            stocks.push("predicted (s)".into());
+        }
         let _ = writeln!(out, "| run | {} |", stocks.join(" | "));
         let _ = writeln!(out, "|---|{}", "---:|".repeat(stocks.len()));
         for r in &report.runs {
-            let cells: Vec<String> = r
+            let mut cells: Vec<String> = r
                 .volumes
                 .iter()
                 .map(|v| format!("{:.*}", dec, v.ml))
                 .collect();
+            if forecast {
+                cells.push(
+                    r.forecast
+                        .as_ref()
+                        .and_then(|f| f.time_s)
+                        .map_or("-".into(), |t| format!("{t:.1}")),
+                );
+            }
             let _ = writeln!(out, "| {} | {} |", esc(&r.name), cells.join(" | "));
         }
         out.push('\n');
@@ -127,12 +238,10 @@ impl Exporter for Markdown {
                 let _ = writeln!(out, "| {} | {target} | {} | {dev} |", esc(sp), mm(*c));
             }
             let _ = writeln!(out, "\nIonic strength: {} mM.\n", mm(r.ionic_strength));
-            for f in &r.flags {
-                let _ = writeln!(out, "- **Flag `{}`:** {}", f.code, esc(&f.message));
+            if let Some(f) = &r.forecast {
+                forecast_text(&mut out, f);
             }
-            if !r.flags.is_empty() {
-                out.push('\n');
-            }
+            flags(&mut out, &r.flags);
         }
 
         let _ = writeln!(out, "## Stock to prepare\n");
@@ -155,10 +264,10 @@ impl Exporter for Markdown {
             report.water_total_ml
         );
 
-        let _ = writeln!(out, "## Cautions\n");
-        for c in &report.cautions {
-            let _ = writeln!(out, "- {}", esc(c));
+        if let (Some(r), Some(st)) = (&report.reaction, &report.forecast_settings) {
+            reaction_text(&mut out, r, st);
         }
+        cautions(&mut out, &report.cautions);
         out.into_bytes()
     }
 }

@@ -6,7 +6,7 @@ mod json;
 mod markdown;
 mod text;
 
-use crate::report::PlanReport;
+use crate::report::{ForecastSheet, PlanReport};
 
 pub use self::csv::Csv;
 pub use self::json::Json;
@@ -15,7 +15,10 @@ pub use self::text::Text;
 
 /// Turns a report into the bytes of one output format.
 pub trait Exporter {
-    fn export(&self, report: &PlanReport) -> Vec<u8>;
+    /// The mixing sheet of `clockprep plan`.
+    fn plan(&self, report: &PlanReport) -> Vec<u8>;
+    /// The sheet of `clockprep forecast`.
+    fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8>;
 }
 
 /// The output formats of `clockprep plan`.
@@ -38,9 +41,14 @@ impl Format {
     }
 }
 
-/// Export `report` in `format`.
+/// Export a plan report in `format`.
 pub fn export(report: &PlanReport, format: Format) -> Vec<u8> {
-    format.exporter().export(report)
+    format.exporter().plan(report)
+}
+
+/// Export a forecast sheet in `format`.
+pub fn export_forecast(sheet: &ForecastSheet, format: Format) -> Vec<u8> {
+    format.exporter().forecast(sheet)
 }
 
 /// A number with `n` significant figures, without exponent for lab-sized values.

@@ -1,5 +1,8 @@
 use super::{ml_decimals, sig, Exporter};
-use crate::report::{PlanReport, RunReport};
+use crate::report::{
+    ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport,
+};
+use crate::solve::Flag;
 use std::fmt::Write;
 
 /// The mixing sheet as aligned plain text, units in every header.
@@ -147,14 +150,148 @@ fn run_block(out: &mut String, r: &RunReport, n: usize, of: usize, dec: usize) {
             let _ = writeln!(out, "  ionic strength: {} mM", mm(r.ionic_strength));
         }
     }
-    for f in &r.flags {
-        let _ = writeln!(out, "  FLAG [{}] {}", f.code, f.message);
+    if let Some(f) = &r.forecast {
+        forecast_lines(out, f);
     }
+    flag_lines(out, &r.flags, "  ");
     out.push('\n');
 }
 
+/// A time in seconds, or minutes past ten minutes.
+pub(crate) fn secs(t: f64) -> String {
+    if t >= 600.0 {
+        format!("{:.1} min", t / 60.0)
+    } else {
+        format!("{t:.1} s")
+    }
+}
+
+fn flag_lines(out: &mut String, flags: &[Flag], indent: &str) {
+    for f in flags {
+        let _ = writeln!(out, "{indent}FLAG [{}] {}", f.code, f.message);
+    }
+}
+
+/// The forecast of one run, in sentences.
+fn forecast_lines(out: &mut String, f: &ForecastReport) {
+    match (f.time_s, f.band_s, f.clock_s, f.initial_rate_s) {
+        (Some(t), Some([fast, slow]), Some(clock), Some(approx)) => {
+            let _ = writeln!(
+                out,
+                "  Predicted time to {}: {} at {:.1} °C ({} to {} over {:.1} to {:.1} °C); an estimate, not a guarantee.",
+                f.uses,
+                secs(t),
+                f.temperature_c,
+                secs(slow),
+                secs(fast),
+                f.band_c[0],
+                f.band_c[1]
+            );
+            let visible = f
+                .visible_extra_s
+                .map(|v| format!(" + {} to visible colour", secs(v)))
+                .unwrap_or_default();
+            let _ = writeln!(
+                out,
+                "  Clock {}{visible}; initial-rate estimate {} ({:+.1} %).",
+                secs(clock),
+                secs(approx),
+                f.initial_rate_difference_pct.unwrap_or(0.0)
+            );
+            if let (Some(rate), Some(r0)) = (f.rate, f.initial_rate) {
+                let _ = writeln!(out, "  Expected rate from that time: {rate:.3e} M/s (prior initial rate {r0:.3e} M/s).");
+            }
+            if let (Some(c), Some(s)) = (f.max_conversion, &f.max_conversion_species) {
+                let _ = writeln!(
+                    out,
+                    "  Largest conversion at the clock: {s} {:.1} %.",
+                    c * 100.0
+                );
+            }
+        }
+        _ => {
+            let _ = writeln!(out, "  No predicted time: see the flag below.");
+        }
+    }
+    flag_lines(out, &f.warnings, "  ");
+}
+
+/// The prior rate law with every value's source.
+fn reaction_section(out: &mut String, r: &ReactionReport, s: &ForecastSettingsReport) {
+    heading(out, "Rate law prior");
+    let _ = writeln!(
+        out,
+        "{}: rate species {}, timing species {} via {}; nu = {} mol {} per mol {}.",
+        r.name,
+        r.rate_species,
+        r.timing_species,
+        r.intermediate,
+        sig(r.nu, 3),
+        r.timing_species,
+        r.rate_species
+    );
+    for t in &r.terms {
+        let orders: Vec<String> = t
+            .orders
+            .0
+            .iter()
+            .map(|(sp, n)| format!("[{sp}]^{n}"))
+            .collect();
+        let ea = t
+            .activation_energy
+            .map(|e| format!(", Ea {e} kJ/mol"))
+            .unwrap_or_else(|| ", no activation energy (no temperature scaling)".into());
+        let _ = writeln!(
+            out,
+            "- k = {} {} at {:.1} °C{ea}; rate term k {}",
+            t.k,
+            t.k_unit,
+            t.at_c,
+            orders.join(" ")
+        );
+        if let Some(src) = &t.source {
+            let _ = writeln!(out, "  source: {src}");
+        }
+    }
+    if let Some(v) = r.visible_threshold {
+        let _ = writeln!(
+            out,
+            "- visible at {} µM {}",
+            sig(v * 1e6, 3),
+            r.intermediate
+        );
+        if let Some(src) = &r.visible_source {
+            let _ = writeln!(out, "  source: {src}");
+        }
+    }
+    let period = s
+        .lab_period_s
+        .map(|p| format!("; lab period {}", secs(p)))
+        .unwrap_or_default();
+    let _ = writeln!(
+        out,
+        "Planned {:.1} °C ± {:.1} °C; timing window {} to {}; handling {} per trial{period}.",
+        s.temperature_c,
+        s.band_c,
+        secs(s.window_s[0]),
+        secs(s.window_s[1]),
+        secs(s.handling_per_run_s)
+    );
+    let _ = writeln!(
+        out,
+        "This is a prior: calibrate it with a pilot run before relying on the times.\n"
+    );
+}
+
+fn cautions(out: &mut String, lines: &[String]) {
+    heading(out, "Cautions");
+    for c in lines {
+        let _ = writeln!(out, "- {c}");
+    }
+}
+
 impl Exporter for Text {
-    fn export(&self, report: &PlanReport) -> Vec<u8> {
+    fn plan(&self, report: &PlanReport) -> Vec<u8> {
         let mut out = String::new();
         let dec = ml_decimals(report);
         heading(&mut out, &format!("Mixing sheet: {}", report.title));
@@ -214,6 +351,19 @@ impl Exporter for Text {
             .collect();
         let mut aligns = vec![Align::Left];
         aligns.extend(std::iter::repeat_n(Align::Right, stocks.len()));
+        let mut rows = rows;
+        if report.reaction.is_some() {
+            headers.push("predicted (s)");
+            aligns.push(Align::Right);
+            for (row, r) in rows.iter_mut().zip(&report.runs) {
+                row.push(
+                    r.forecast
+                        .as_ref()
+                        .and_then(|f| f.time_s)
+                        .map_or("-".into(), |t| format!("{t:.1}")),
+                );
+            }
+        }
         out.push_str(&table(0, &headers, &aligns, &rows));
         out.push('\n');
 
@@ -268,10 +418,79 @@ impl Exporter for Text {
         ));
         out.push('\n');
 
-        heading(&mut out, "Cautions");
-        for c in &report.cautions {
-            let _ = writeln!(out, "- {c}");
+        if let (Some(r), Some(s)) = (&report.reaction, &report.forecast_settings) {
+            reaction_section(&mut out, r, s);
         }
+        cautions(&mut out, &report.cautions);
+        out.into_bytes()
+    }
+
+    fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8> {
+        let mut out = String::new();
+        heading(&mut out, &format!("Clock-time forecast: {}", sheet.title));
+        let _ = writeln!(out, "Spec: {}", sheet.spec);
+        let _ = writeln!(
+            out,
+            "Timing reagent: {} {} mM in every run. Times are estimates from a prior rate law, not guarantees.",
+            sheet.timing.species,
+            mm(sheet.timing.concentration)
+        );
+        if sheet.flagged {
+            let _ = writeln!(out, "FLAGGED: see FLAG lines below.");
+        }
+        flag_lines(&mut out, &sheet.warnings, "");
+        out.push('\n');
+        let species: Vec<String> = sheet.runs[0]
+            .concentrations
+            .0
+            .iter()
+            .map(|(s, _)| format!("{s} (mM)"))
+            .collect();
+        let mut headers: Vec<&str> = vec!["run"];
+        headers.extend(species.iter().map(String::as_str));
+        headers.extend([
+            "time (s)",
+            "band (s)",
+            "initial-rate est. (s)",
+            "rate (M/s)",
+            "max conversion",
+        ]);
+        let mut aligns = vec![Align::Left];
+        aligns.extend(std::iter::repeat_n(Align::Right, headers.len() - 1));
+        let rows: Vec<Vec<String>> = sheet
+            .runs
+            .iter()
+            .map(|r| {
+                let f = &r.forecast;
+                let mut row = vec![r.name.clone()];
+                row.extend(r.concentrations.0.iter().map(|(_, c)| mm(*c)));
+                row.push(f.time_s.map_or("-".into(), |t| format!("{t:.1}")));
+                row.push(
+                    f.band_s
+                        .map_or("-".into(), |[a, b]| format!("{a:.1}-{b:.1}")),
+                );
+                row.push(f.initial_rate_s.map_or("-".into(), |t| format!("{t:.1}")));
+                row.push(f.rate.map_or("-".into(), |v| format!("{v:.3e}")));
+                row.push(match (f.max_conversion, &f.max_conversion_species) {
+                    (Some(c), Some(s)) => format!("{:.1} % {s}", c * 100.0),
+                    _ => "-".into(),
+                });
+                row
+            })
+            .collect();
+        out.push_str(&table(0, &headers, &aligns, &rows));
+        out.push('\n');
+        for r in &sheet.runs {
+            if !r.forecast.warnings.is_empty() {
+                let _ = writeln!(out, "{}:", r.name);
+                flag_lines(&mut out, &r.forecast.warnings, "  ");
+            }
+        }
+        if sheet.runs.iter().any(|r| !r.forecast.warnings.is_empty()) {
+            out.push('\n');
+        }
+        reaction_section(&mut out, &sheet.reaction, &sheet.forecast_settings);
+        cautions(&mut out, &sheet.cautions);
         out.into_bytes()
     }
 }

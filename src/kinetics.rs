@@ -1,0 +1,751 @@
+//! Kinetics: the clock-time forecast from a prior rate law.
+//!
+//! A clock run has a main reaction (rate species → intermediate, e.g. BrO3⁻ → 3 I₂) and a fast
+//! clock reaction that removes the intermediate with the timing reagent (I₂ + 2 S₂O₃²⁻). While
+//! the timing reagent lasts, every concentration is linear in the extent ξ (mol/L of rate
+//! species consumed): cᵢ(ξ) = cᵢ₀ + δᵢ ξ, with δ the net change of the two reactions together.
+//! The rate law gives dξ/dt = r(ξ) = Σⱼ kⱼ(T) Πᵢ cᵢ(ξ)^nᵢⱼ, so the time to the clock is
+//!
+//!   t_clock = ∫₀^ξc dξ / r(ξ),   ξc = [timing]₀ / ν,
+//!
+//! with ν the mol of timing reagent consumed per mol of rate species. The integral is computed
+//! by adaptive Gauss–Kronrod (7/15 points) to a relative tolerance of 1e-10. After the timing
+//! reagent is gone the main reaction alone runs, and the intermediate builds up to the visible
+//! threshold (when one is given) over a further integral of the same form.
+
+use std::fmt;
+
+/// Molar gas constant, J mol⁻¹ K⁻¹ (CODATA 2018, exact since the 2019 SI redefinition).
+pub const R: f64 = 8.314_462_618;
+
+/// A balanced equation: (species, coefficient) on each side.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Equation {
+    pub reactants: Vec<(String, f64)>,
+    pub products: Vec<(String, f64)>,
+}
+
+impl Equation {
+    /// Net change of `species` per unit of the equation (products positive).
+    pub fn net(&self, species: &str) -> f64 {
+        let side = |v: &Vec<(String, f64)>| {
+            v.iter()
+                .filter(|(s, _)| s == species)
+                .map(|(_, c)| c)
+                .sum::<f64>()
+        };
+        side(&self.products) - side(&self.reactants)
+    }
+
+    pub fn species(&self) -> impl Iterator<Item = &str> {
+        self.reactants
+            .iter()
+            .chain(&self.products)
+            .map(|(s, _)| s.as_str())
+    }
+}
+
+/// Why an equation text could not be read; `at` is a byte range inside it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EquationError {
+    pub message: String,
+    pub at: std::ops::Range<usize>,
+}
+
+/// Read "BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O". Terms are separated by a lone `+`,
+/// sides by `->` or `→`; a coefficient is a number before its species, separated by a space.
+pub fn parse_equation(text: &str) -> Result<Equation, EquationError> {
+    // Tokens with their byte offsets.
+    let mut tokens: Vec<(usize, &str)> = Vec::new();
+    let mut start = None;
+    for (i, c) in text.char_indices() {
+        if c.is_whitespace() {
+            if let Some(s) = start.take() {
+                tokens.push((s, &text[s..i]));
+            }
+        } else if start.is_none() {
+            start = Some(i);
+        }
+    }
+    if let Some(s) = start {
+        tokens.push((s, &text[s..]));
+    }
+    let arrows: Vec<usize> = tokens
+        .iter()
+        .enumerate()
+        .filter(|(_, (_, t))| *t == "->" || *t == "→")
+        .map(|(i, _)| i)
+        .collect();
+    if arrows.len() != 1 {
+        return Err(EquationError {
+            message: "an equation needs exactly one arrow '->' between reactants and products"
+                .into(),
+            at: 0..text.len(),
+        });
+    }
+    let side = |toks: &[(usize, &str)]| -> Result<Vec<(String, f64)>, EquationError> {
+        let mut out: Vec<(String, f64)> = Vec::new();
+        let mut coef: Option<f64> = None;
+        let mut expect_term = true;
+        for &(at, t) in toks {
+            if t == "+" && !expect_term {
+                expect_term = true;
+                continue;
+            }
+            if !expect_term {
+                return Err(EquationError {
+                    message: format!("expected '+' or '->' before '{t}'"),
+                    at: at..at + t.len(),
+                });
+            }
+            if coef.is_none() {
+                if let Ok(v) = t.parse::<f64>() {
+                    if !(v.is_finite() && v > 0.0) {
+                        return Err(EquationError {
+                            message: "a coefficient must be a positive number".into(),
+                            at: at..at + t.len(),
+                        });
+                    }
+                    coef = Some(v);
+                    continue;
+                }
+            }
+            let sp = crate::species::canonical(t);
+            if let Err(e) = crate::species::charge(&sp) {
+                return Err(EquationError {
+                    message: format!("'{t}': {}", e.describe()),
+                    at: at..at + t.len(),
+                });
+            }
+            let c = coef.take().unwrap_or(1.0);
+            match out.iter_mut().find(|(s, _)| *s == sp) {
+                Some(e) => e.1 += c,
+                None => out.push((sp, c)),
+            }
+            expect_term = false;
+        }
+        if expect_term {
+            let at = toks.last().map_or(0, |(a, t)| a + t.len());
+            return Err(EquationError {
+                message: "a side of the equation is empty or ends with '+'".into(),
+                at: at..at,
+            });
+        }
+        Ok(out)
+    };
+    Ok(Equation {
+        reactants: side(&tokens[..arrows[0]])?,
+        products: side(&tokens[arrows[0] + 1..])?,
+    })
+}
+
+/// One power-law term of the rate law, k(T) Π cᵢ^nᵢ.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Term {
+    /// SI: M^(1−n) s⁻¹ at `t_ref`.
+    pub k_ref: f64,
+    /// K
+    pub t_ref: f64,
+    /// J/mol; None means no temperature dependence is known.
+    pub activation_energy: Option<f64>,
+    pub orders: Vec<(String, f64)>,
+    pub source: Option<String>,
+}
+
+impl Term {
+    pub fn overall_order(&self) -> f64 {
+        self.orders.iter().map(|(_, n)| n).sum()
+    }
+
+    /// Arrhenius: k(T) = k_ref · exp(−Ea/R · (1/T − 1/T_ref)).
+    pub fn k_at(&self, t: f64) -> f64 {
+        match self.activation_energy {
+            Some(ea) => self.k_ref * (-ea / R * (1.0 / t - 1.0 / self.t_ref)).exp(),
+            None => self.k_ref,
+        }
+    }
+}
+
+/// The visible end point: the intermediate reaches `threshold` (mol/L) after the timing
+/// reagent is gone.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Visible {
+    pub threshold: f64,
+    pub source: Option<String>,
+}
+
+/// A clock reaction with its rate law, and the stoichiometry derived from its two equations.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reaction {
+    pub name: String,
+    pub rate_species: String,
+    pub timing_species: String,
+    pub main: Equation,
+    pub clock: Equation,
+    pub terms: Vec<Term>,
+    pub visible: Option<Visible>,
+    /// The species made by the main reaction and removed by the clock reaction (e.g. I2).
+    pub intermediate: String,
+    /// mol of timing reagent consumed per mol of rate species.
+    pub nu: f64,
+    /// Net change of each species per unit extent while the timing reagent lasts.
+    pub during: Vec<(String, f64)>,
+    /// Net change per unit extent after it is gone (main reaction alone).
+    pub after: Vec<(String, f64)>,
+}
+
+/// Why a reaction's stoichiometry does not make a clock.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StoichError(pub String);
+
+impl fmt::Display for StoichError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl Reaction {
+    /// Derive ν and the net changes from the main and clock equations.
+    pub fn new(
+        name: String,
+        rate_species: String,
+        timing_species: String,
+        main: Equation,
+        clock: Equation,
+        terms: Vec<Term>,
+        visible: Option<Visible>,
+    ) -> Result<Reaction, StoichError> {
+        let r = -main.net(&rate_species);
+        if r <= 0.0 {
+            return Err(StoichError(format!(
+                "the main reaction does not consume the rate species {rate_species}"
+            )));
+        }
+        let s = -clock.net(&timing_species);
+        if s <= 0.0 {
+            return Err(StoichError(format!(
+                "the clock reaction does not consume the timing species {timing_species}"
+            )));
+        }
+        let intermediate = main
+            .products
+            .iter()
+            .map(|(sp, _)| sp)
+            .find(|sp| main.net(sp) > 0.0 && clock.net(sp) < 0.0 && **sp != timing_species)
+            .cloned()
+            .ok_or_else(|| {
+                StoichError(
+                    "no species is made by the main reaction and used by the clock reaction".into(),
+                )
+            })?;
+        let p = main.net(&intermediate);
+        let q = -clock.net(&intermediate);
+        // Per unit ξ (one mol/L of rate species): the main reaction runs 1/r times, the clock
+        // reaction removes the intermediate as fast as it forms, p/(r q) times.
+        let nu = p / r * s / q;
+        let mut names: Vec<String> = Vec::new();
+        for sp in main.species().chain(clock.species()) {
+            if !names.iter().any(|n| n == sp) {
+                names.push(sp.to_string());
+            }
+        }
+        let during = names
+            .iter()
+            .map(|n| (n.clone(), main.net(n) / r + clock.net(n) * p / (r * q)))
+            .collect();
+        let after = names.iter().map(|n| (n.clone(), main.net(n) / r)).collect();
+        Ok(Reaction {
+            name,
+            rate_species,
+            timing_species,
+            main,
+            clock,
+            terms,
+            visible,
+            intermediate,
+            nu,
+            during,
+            after,
+        })
+    }
+
+    /// Species that appear in the rate law.
+    pub fn rate_law_species(&self) -> Vec<&str> {
+        let mut out: Vec<&str> = Vec::new();
+        for t in &self.terms {
+            for (s, _) in &t.orders {
+                if !out.contains(&s.as_str()) {
+                    out.push(s);
+                }
+            }
+        }
+        out
+    }
+
+    fn change(list: &[(String, f64)], species: &str) -> f64 {
+        list.iter()
+            .find(|(s, _)| s == species)
+            .map_or(0.0, |(_, d)| *d)
+    }
+
+    pub fn during(&self, species: &str) -> f64 {
+        Self::change(&self.during, species)
+    }
+
+    pub fn after(&self, species: &str) -> f64 {
+        Self::change(&self.after, species)
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// The compiled rate law of one run: no allocation when evaluated.
+// ---------------------------------------------------------------------------------------------
+
+/// The rate law of one run, compiled to indices so a forecast allocates nothing.
+#[derive(Debug, Clone)]
+pub struct RunKinetics {
+    /// Per rate-law species: initial concentration, net change per ξ during and after the clock.
+    c0: Vec<f64>,
+    during: Vec<f64>,
+    after: Vec<f64>,
+    /// Per term: (index into the species, order) pairs.
+    terms: Vec<Vec<(usize, f64)>>,
+    /// Per term: k at the reference temperature, T_ref, Ea.
+    k: Vec<(f64, f64, Option<f64>)>,
+    /// Extent at the clock, mol/L.
+    xi_clock: f64,
+    /// Extra extent after the clock to reach the visible threshold, mol/L (0 without one).
+    xi_visible: f64,
+    /// Reactants (consumed while the timing reagent lasts): initial concentration and change per ξ.
+    consumed: Vec<(String, f64, f64)>,
+    nu: f64,
+    timing: f64,
+}
+
+/// The forecast of one run at one temperature.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Timing {
+    /// s, until the timing reagent is used up.
+    pub clock: f64,
+    /// s, from then until the colour is visible (0 without a threshold).
+    pub visible_extra: f64,
+    /// s, by the initial-rate approximation [timing]₀ / (ν r₀).
+    pub initial_rate: f64,
+    /// M/s, the initial rate r₀ of rate-species consumption.
+    pub rate0: f64,
+}
+
+impl Timing {
+    /// The time the forecast reports: to visible colour when a threshold is known.
+    pub fn to_colour(&self) -> f64 {
+        self.clock + self.visible_extra
+    }
+}
+
+/// Why a run has no finite forecast.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NoClock {
+    /// A rate-law species starts at zero: the reaction does not run.
+    Missing(String),
+    /// A reactant runs out before the timing reagent does: the colour never appears.
+    Exhausted(String),
+}
+
+impl fmt::Display for NoClock {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            NoClock::Missing(s) => write!(f, "{s} is absent, so the reaction does not run"),
+            NoClock::Exhausted(s) => write!(
+                f,
+                "{s} runs out before the timing reagent does, so the colour never appears"
+            ),
+        }
+    }
+}
+
+impl RunKinetics {
+    /// Compile `reaction` for a run with initial concentrations `c0` (species → mol/L) and
+    /// `timing` mol/L of timing reagent.
+    pub fn new(
+        reaction: &Reaction,
+        c0: &[(String, f64)],
+        timing: f64,
+    ) -> Result<RunKinetics, NoClock> {
+        let conc = |s: &str| c0.iter().find(|(n, _)| n == s).map_or(0.0, |(_, c)| *c);
+        let species = reaction.rate_law_species();
+        let xi_clock = timing / reaction.nu;
+        for s in &species {
+            if conc(s) <= 0.0 {
+                return Err(NoClock::Missing(s.to_string()));
+            }
+        }
+        let mut consumed = Vec::new();
+        for (s, d) in &reaction.during {
+            if *d < 0.0 && *s != reaction.timing_species {
+                let c = conc(s);
+                if c + d * xi_clock <= 0.0 {
+                    return Err(NoClock::Exhausted(s.clone()));
+                }
+                consumed.push((s.clone(), c, *d));
+            }
+        }
+        let xi_visible = match &reaction.visible {
+            Some(v) => {
+                let p = reaction.after(&reaction.intermediate);
+                if p > 0.0 {
+                    v.threshold / p
+                } else {
+                    0.0
+                }
+            }
+            None => 0.0,
+        };
+        // After the clock, a reactant may not run out before the colour shows either.
+        for s in &species {
+            let at_clock = conc(s) + reaction.during(s) * xi_clock;
+            if at_clock + reaction.after(s) * xi_visible <= 0.0 {
+                return Err(NoClock::Exhausted(s.to_string()));
+            }
+        }
+        Ok(RunKinetics {
+            c0: species.iter().map(|s| conc(s)).collect(),
+            during: species.iter().map(|s| reaction.during(s)).collect(),
+            after: species.iter().map(|s| reaction.after(s)).collect(),
+            terms: reaction
+                .terms
+                .iter()
+                .map(|t| {
+                    t.orders
+                        .iter()
+                        .map(|(s, n)| (species.iter().position(|x| x == s).unwrap_or(0), *n))
+                        .collect()
+                })
+                .collect(),
+            k: reaction
+                .terms
+                .iter()
+                .map(|t| (t.k_ref, t.t_ref, t.activation_energy))
+                .collect(),
+            xi_clock,
+            xi_visible,
+            consumed,
+            nu: reaction.nu,
+            timing,
+        })
+    }
+
+    /// Rate (M/s) at extent `xi`: before the clock when `xi ≤ ξc`, after it beyond.
+    fn rate(&self, ks: &[f64; MAX_TERMS], xi: f64) -> f64 {
+        let before = xi.min(self.xi_clock);
+        let beyond = (xi - self.xi_clock).max(0.0);
+        let mut r = 0.0;
+        for (term, k) in self.terms.iter().zip(ks) {
+            let mut p = *k;
+            for &(i, n) in term {
+                let c = self.c0[i] + self.during[i] * before + self.after[i] * beyond;
+                p *= if n == 1.0 {
+                    c
+                } else if n == 2.0 {
+                    c * c
+                } else {
+                    c.max(0.0).powf(n)
+                };
+            }
+            r += p;
+        }
+        r
+    }
+
+    /// Forecast at temperature `t` (K).
+    pub fn at(&self, t: f64) -> Timing {
+        let mut ks = [0.0; MAX_TERMS];
+        for (slot, &(k_ref, t_ref, ea)) in ks.iter_mut().zip(&self.k) {
+            *slot = match ea {
+                Some(ea) => k_ref * (-ea / R * (1.0 / t - 1.0 / t_ref)).exp(),
+                None => k_ref,
+            };
+        }
+        let f = |xi: f64| 1.0 / self.rate(&ks, xi);
+        let clock = integrate(&f, 0.0, self.xi_clock, 1e-10);
+        let visible_extra = if self.xi_visible > 0.0 {
+            integrate(&f, self.xi_clock, self.xi_clock + self.xi_visible, 1e-10)
+        } else {
+            0.0
+        };
+        let rate0 = self.rate(&ks, 0.0);
+        Timing {
+            clock,
+            visible_extra,
+            initial_rate: self.xi_clock / rate0,
+            rate0,
+        }
+    }
+
+    /// Fraction of each reactant used up when the timing reagent runs out.
+    pub fn conversions(&self) -> impl Iterator<Item = (&str, f64)> {
+        self.consumed
+            .iter()
+            .map(move |(s, c, d)| (s.as_str(), -d * self.xi_clock / c))
+    }
+
+    /// The rate (M/s) implied by a measured time: [timing]₀ / (ν t).
+    pub fn rate_from_time(&self, seconds: f64) -> f64 {
+        self.timing / (self.nu * seconds)
+    }
+}
+
+/// Most terms a rate law may have (a fixed array keeps forecasts allocation-free).
+pub const MAX_TERMS: usize = 4;
+
+// ---------------------------------------------------------------------------------------------
+// Adaptive Gauss–Kronrod quadrature
+// ---------------------------------------------------------------------------------------------
+
+/// Kronrod 15-point nodes (positive half, descending) and weights, with the embedded Gauss
+/// 7-point weights; the standard G7/K15 pair (Piessens et al., QUADPACK, 1983, routine QK15).
+const XGK: [f64; 8] = [
+    0.991_455_371_120_812_6,
+    0.949_107_912_342_758_5,
+    0.864_864_423_359_769_1,
+    0.741_531_185_599_394_4,
+    0.586_087_235_467_691_1,
+    0.405_845_151_377_397_2,
+    0.207_784_955_007_898_5,
+    0.0,
+];
+const WGK: [f64; 8] = [
+    0.022_935_322_010_529_22,
+    0.063_092_092_629_978_55,
+    0.104_790_010_322_250_2,
+    0.140_653_259_715_525_9,
+    0.169_004_726_639_267_9,
+    0.190_350_578_064_785_4,
+    0.204_432_940_075_298_9,
+    0.209_482_141_084_728,
+];
+const WG: [f64; 4] = [
+    0.129_484_966_168_869_7,
+    0.279_705_391_489_276_7,
+    0.381_830_050_505_118_9,
+    0.417_959_183_673_469_4,
+];
+
+/// One G7/K15 panel: (Kronrod estimate, |Kronrod − Gauss|).
+fn gk15(f: &impl Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
+    let c = 0.5 * (a + b);
+    let h = 0.5 * (b - a);
+    let fc = f(c);
+    let mut k = fc * WGK[7];
+    let mut g = fc * WG[3];
+    for j in 0..7 {
+        let x = h * XGK[j];
+        let s = f(c - x) + f(c + x);
+        k += WGK[j] * s;
+        if j % 2 == 1 {
+            g += WG[j / 2] * s;
+        }
+    }
+    (k * h, ((k - g) * h).abs())
+}
+
+/// ∫ₐᵇ f by adaptive bisection of G7/K15 panels until the summed error estimate is below
+/// `rel_tol` of the integral. Uses a fixed stack: no allocation.
+pub fn integrate(f: &impl Fn(f64) -> f64, a: f64, b: f64, rel_tol: f64) -> f64 {
+    const DEPTH: usize = 48;
+    if a == b {
+        return 0.0;
+    }
+    let (whole, err) = gk15(f, a, b);
+    if err <= rel_tol * whole.abs() {
+        return whole;
+    }
+    // Depth-first refinement; each panel is accepted when its error is within its share.
+    let mut stack = [(0.0f64, 0.0f64, 0u32); DEPTH];
+    let mut top = 1;
+    stack[0] = (a, b, 0);
+    let mut total = 0.0;
+    let budget = rel_tol * whole.abs();
+    let width = b - a;
+    while top > 0 {
+        top -= 1;
+        let (lo, hi, level) = stack[top];
+        let (v, e) = gk15(f, lo, hi);
+        if e <= budget * (hi - lo) / width || level as usize >= DEPTH - 2 || top + 2 > DEPTH {
+            total += v;
+        } else {
+            let mid = 0.5 * (lo + hi);
+            stack[top] = (mid, hi, level + 1);
+            stack[top + 1] = (lo, mid, level + 1);
+            top += 2;
+        }
+    }
+    total
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn gauss_kronrod_integrates_known_functions() {
+        // ∫₀¹ eˣ dx = e − 1; ∫₀^π sin x dx = 2; ∫₀¹ 1/(1+x²) dx = π/4 (analytic).
+        assert_relative_eq!(
+            integrate(&|x: f64| x.exp(), 0.0, 1.0, 1e-12),
+            std::f64::consts::E - 1.0,
+            max_relative = 1e-13
+        );
+        assert_relative_eq!(
+            integrate(&|x: f64| x.sin(), 0.0, std::f64::consts::PI, 1e-12),
+            2.0,
+            max_relative = 1e-13
+        );
+        assert_relative_eq!(
+            integrate(&|x: f64| 1.0 / (1.0 + x * x), 0.0, 1.0, 1e-12),
+            std::f64::consts::FRAC_PI_4,
+            max_relative = 1e-13
+        );
+        // A near-singular integrand needs bisection: ∫₀^0.999 dx/(1−x) = ln 1000.
+        assert_relative_eq!(
+            integrate(&|x: f64| 1.0 / (1.0 - x), 0.0, 0.999, 1e-10),
+            1000f64.ln(),
+            max_relative = 1e-9
+        );
+    }
+
+    #[test]
+    fn equations_parse_with_charges_and_coefficients() {
+        let e = parse_equation("BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O").unwrap();
+        assert_eq!(
+            e.reactants,
+            vec![
+                ("BrO3-".into(), 1.0),
+                ("I-".into(), 6.0),
+                ("H+".into(), 6.0)
+            ]
+        );
+        assert_eq!(e.net("I2"), 3.0);
+        let e = parse_equation("I2 + 2 S2O3^2- → 2 I- + S4O6^2-").unwrap();
+        assert_eq!(e.net("S2O3^2-"), -2.0);
+        assert!(parse_equation("A + B").is_err());
+        assert!(parse_equation("A + -> B").is_err());
+        assert!(parse_equation("A B -> C").is_err());
+    }
+
+    fn bromate(terms: Vec<Term>) -> Reaction {
+        Reaction::new(
+            "bromate".into(),
+            "BrO3-".into(),
+            "S2O3^2-".into(),
+            parse_equation("BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O").unwrap(),
+            parse_equation("I2 + 2 S2O3^2- -> 2 I- + S4O6^2-").unwrap(),
+            terms,
+            None,
+        )
+        .unwrap()
+    }
+
+    fn term(k: f64, orders: &[(&str, f64)]) -> Term {
+        Term {
+            k_ref: k,
+            t_ref: 298.15,
+            activation_energy: None,
+            orders: orders.iter().map(|(s, n)| (s.to_string(), *n)).collect(),
+            source: None,
+        }
+    }
+
+    #[test]
+    fn bromate_with_thiosulfate_has_nu_six() {
+        // 1 BrO3- gives 3 I2, each I2 takes 2 S2O3^2-: ν = 6 (common practice).
+        let r = bromate(vec![term(
+            40.0,
+            &[("BrO3-", 1.0), ("I-", 1.0), ("H+", 2.0)],
+        )]);
+        assert_eq!(r.intermediate, "I2");
+        assert_relative_eq!(r.nu, 6.0);
+        // Iodide is regenerated by thiosulfate while it lasts; acid is consumed.
+        assert_relative_eq!(r.during("I-"), 0.0);
+        assert_relative_eq!(r.during("H+"), -6.0);
+        assert_relative_eq!(r.during("I2"), 0.0);
+        assert_relative_eq!(r.after("I2"), 3.0);
+        assert_relative_eq!(r.after("I-"), -6.0);
+    }
+
+    #[test]
+    fn first_order_in_oxidant_matches_the_logarithm() {
+        // rate = k[BrO3-][I-] with [I-] constant (regenerated): analytic
+        // t = ln(c0/(c0 − ξc)) / (k [I-]).
+        let k = 0.5;
+        let r = bromate(vec![term(k, &[("BrO3-", 1.0), ("I-", 1.0)])]);
+        let (b0, i0, thio) = (0.004, 0.01, 0.0012);
+        let run = RunKinetics::new(
+            &r,
+            &[("BrO3-".into(), b0), ("I-".into(), i0), ("H+".into(), 0.1)],
+            thio,
+        )
+        .unwrap();
+        let xc = thio / 6.0;
+        let exact = (b0 / (b0 - xc)).ln() / (k * i0);
+        assert_relative_eq!(run.at(298.15).clock, exact, max_relative = 1e-9);
+    }
+
+    #[test]
+    fn acid_consumed_matches_partial_fractions() {
+        // rate = k[BrO3-][H+], B = B0 − ξ, H = H0 − 6ξ. Partial fractions give
+        // t = ln( B0 (H0 − 6x) / (H0 (B0 − x)) ) / (k (H0 − 6 B0)).
+        let k = 2.0;
+        let r = bromate(vec![term(k, &[("BrO3-", 1.0), ("H+", 1.0)])]);
+        let (b0, h0, thio) = (0.01, 0.02, 0.006);
+        let run = RunKinetics::new(
+            &r,
+            &[("BrO3-".into(), b0), ("I-".into(), 0.01), ("H+".into(), h0)],
+            thio,
+        )
+        .unwrap();
+        let x = thio / 6.0;
+        let exact = (b0 * (h0 - 6.0 * x) / (h0 * (b0 - x))).ln() / (k * (h0 - 6.0 * b0));
+        assert_relative_eq!(run.at(298.15).clock, exact, max_relative = 1e-9);
+        let (name, conv) = run.conversions().find(|(s, _)| *s == "H+").unwrap();
+        assert_eq!(name, "H+");
+        assert_relative_eq!(conv, 6.0 * x / h0, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn arrhenius_by_hand() {
+        // k(T2)/k(T1) = exp(−Ea/R (1/T2 − 1/T1)), R from CODATA 2018; Ea = 50 kJ/mol,
+        // 25 °C → 35 °C: 1/308.15 − 1/298.15 = −1.08842e-4 K⁻¹; × 50000/8.314462618 = −0.654536;
+        // exp(0.654536) = 1.92426.
+        let t = Term {
+            activation_energy: Some(50_000.0),
+            ..term(1.0, &[])
+        };
+        let ratio = t.k_at(308.15) / t.k_at(298.15);
+        let by_hand = (-50_000.0 / 8.314_462_618 * (1.0 / 308.15 - 1.0 / 298.15f64)).exp();
+        assert_relative_eq!(ratio, by_hand, max_relative = 1e-14);
+        assert_relative_eq!(ratio, 1.92426, max_relative = 1e-5);
+    }
+
+    #[test]
+    fn exhausted_reactant_means_no_clock() {
+        let r = bromate(vec![term(
+            40.0,
+            &[("BrO3-", 1.0), ("I-", 1.0), ("H+", 2.0)],
+        )]);
+        // 0.7 mM thiosulfate needs 0.7/6 mM bromate: 0.1 mM is not enough.
+        let e = RunKinetics::new(
+            &r,
+            &[
+                ("BrO3-".into(), 1e-4),
+                ("I-".into(), 0.01),
+                ("H+".into(), 0.1),
+            ],
+            7e-4,
+        )
+        .unwrap_err();
+        assert_eq!(e, NoClock::Exhausted("BrO3-".into()));
+        let e =
+            RunKinetics::new(&r, &[("BrO3-".into(), 1e-2), ("H+".into(), 0.1)], 1e-4).unwrap_err();
+        assert_eq!(e, NoClock::Missing("I-".into()));
+    }
+}
