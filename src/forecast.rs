@@ -160,3 +160,161 @@ pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast>
     }
     Some(Forecast { runs, warnings })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::error::SpecSource;
+    use crate::spec::{load_for, Purpose};
+
+    /// A forecast-only spec with rate = k [BrO3-][I-] (k = 1 M⁻¹ s⁻¹ at 21 °C, Ea 54 kJ/mol) and
+    /// iodide regenerated while thiosulfate lasts, so t = ln(B/(B − ξc)) / (k [I-]) exactly.
+    /// Acid (0.1 M) is consumed by the main reaction but is not in this rate law.
+    fn spec(thio_mm: f64, runs: &[(&str, f64, f64)], band: &str, extra: &str) -> Spec {
+        let mut text = format!(
+            r#"
+[plan]
+title = "forecast check"
+temperature = "21 °C"
+temperature_band = "{band}"
+replicates = 2
+
+[timing]
+species = "S2O3^2-"
+concentration = "{thio_mm} mM"
+{extra}
+
+[reaction]
+rate_species = "BrO3-"
+main = "BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O"
+clock = "I2 + 2 S2O3^2- -> 2 I- + S4O6^2-"
+
+[[reaction.term]]
+k = "1 M^-1 s^-1"
+at = "21 °C"
+activation_energy = "54 kJ/mol"
+orders = {{ "BrO3-" = 1, "I-" = 1 }}
+"#
+        );
+        for (name, b, i) in runs {
+            text.push_str(&format!("\n[[run]]\nname = \"{name}\"\ntargets = {{ \"BrO3-\" = \"{b:e} M\", \"I-\" = \"{i:e} M\", \"H+\" = \"0.1 M\" }}\n"));
+        }
+        load_for(SpecSource::new("f.toml", text), Purpose::Forecast).unwrap()
+    }
+
+    fn run(spec: &Spec) -> Forecast {
+        let initial: Vec<Vec<(String, f64)>> = spec
+            .runs
+            .iter()
+            .map(|r| {
+                r.targets
+                    .iter()
+                    .map(|t| (t.species.clone(), t.concentration))
+                    .collect()
+            })
+            .collect();
+        forecast(spec, &initial).unwrap()
+    }
+
+    fn codes(f: &RunForecast) -> Vec<&'static str> {
+        f.warnings.iter().map(|w| w.code).collect()
+    }
+
+    #[test]
+    fn too_fast_and_too_slow_are_flagged() {
+        // ξc = 0.06 mM / 6 = 1e-5 M. Fast: B = 0.125 mM, I = 10 mM: t = ln(1/0.92)/0.01 = 8.34 s
+        // (analytic), under 15 s. Slow: B = 1 mM, I = 8.33 µM: t = ln(1/0.99)/8.33e-6 = 1206 s,
+        // over 10 min. Middle: B = 1 mM, I = 0.2 mM: t = 50.25 s, inside at every temperature.
+        let s = spec(
+            0.06,
+            &[
+                ("fast", 1.25e-4, 0.01),
+                ("slow", 1e-3, 8.333e-6),
+                ("middle", 1e-3, 2e-4),
+            ],
+            "3 °C",
+            "",
+        );
+        let f = run(&s);
+        let t = |i: usize| f.runs[i].time().unwrap();
+        approx::assert_relative_eq!(t(0), (1.0f64 / 0.92).ln() / 0.01, max_relative = 1e-9);
+        assert!(t(0) < 9.0 && t(1) > 1200.0);
+        assert_eq!(codes(&f.runs[0]), vec!["too_fast"]);
+        assert_eq!(codes(&f.runs[1]), vec!["too_slow"]);
+        assert!(codes(&f.runs[2]).is_empty());
+        assert!(f.flagged());
+    }
+
+    #[test]
+    fn a_band_that_crosses_the_window_is_flagged() {
+        // 20.5 s at 21 °C, inside the window; at 26 °C k is exp(54000/R·(1/294.15 − 1/299.15))
+        // = 1.446 times larger (Arrhenius), so about 14.2 s: under 15 s at the warm end.
+        let s = spec(0.03, &[("edge", 1e-4, 2.5e-3)], "5 °C", "");
+        let f = run(&s);
+        let r = &f.runs[0];
+        assert!(r.time().unwrap() > 15.0);
+        assert!(r.band_times.unwrap().0 < 15.0);
+        assert_eq!(codes(r), vec!["too_fast"]);
+        assert!(r.warnings[0].message.contains("warm end"));
+    }
+
+    #[test]
+    fn high_conversion_and_session_length() {
+        // ξc = 1e-5 M of 5e-5 M bromate: 20 % used up, over the 10 % limit.
+        let s = spec(
+            0.06,
+            &[("greedy", 5e-5, 2e-3)],
+            "3 °C",
+            "lab_period = \"5 min\"\nhandling_per_run = \"3 min\"",
+        );
+        let f = run(&s);
+        assert!(codes(&f.runs[0]).contains(&"high_conversion"));
+        // Two trials at 3 min handling each already exceed a 5 min period.
+        assert_eq!(f.warnings.len(), 1);
+        assert_eq!(f.warnings[0].code, "session_too_long");
+    }
+
+    #[test]
+    fn exhausted_oxidant_has_no_clock() {
+        // 0.6 mM thiosulfate needs 0.1 mM bromate; 0.05 mM runs out first.
+        let s = spec(0.6, &[("never", 5e-5, 1e-2)], "3 °C", "");
+        let f = run(&s);
+        assert!(f.runs[0].time().is_none());
+        assert_eq!(codes(&f.runs[0]), vec!["no_clock"]);
+    }
+
+    #[test]
+    fn peroxide_preset_carries_the_published_constant() {
+        // 0.69 L mol⁻¹ min⁻¹ at 25 °C (Liebhafsky & Mohammad, J. Am. Chem. Soc. 55, 3977, 1933)
+        // = 0.0115 M⁻¹ s⁻¹.
+        let text = r#"
+[plan]
+title = "preset check"
+temperature = "25 °C"
+
+[timing]
+species = "S2O3^2-"
+concentration = "1 mM"
+
+[reaction]
+preset = "peroxide-iodide"
+
+[[run]]
+name = "r"
+targets = { "H2O2" = "10 mM", "I-" = "10 mM", "H+" = "0.1 M" }
+"#;
+        let s = load_for(SpecSource::new("p.toml", text), Purpose::Forecast).unwrap();
+        let r = s.reaction.as_ref().unwrap();
+        approx::assert_relative_eq!(r.terms[0].k_ref, 0.0115, max_relative = 1e-12);
+        approx::assert_relative_eq!(r.terms[0].t_ref, 298.15);
+        assert!(r.terms[0].source.as_deref().unwrap().contains("Liebhafsky"));
+        // Both persulfate and bromate presets load and derive their ν (2 and 6; common practice).
+        for (preset, nu) in [("persulfate-iodide", 2.0), ("bromate-iodide", 6.0)] {
+            let t = text
+                .replace("peroxide-iodide", preset)
+                .replace("{ \"H2O2\" = \"10 mM\", \"I-\" = \"10 mM\", \"H+\" = \"0.1 M\" }", "{ \"S2O8^2-\" = \"10 mM\", \"BrO3-\" = \"10 mM\", \"I-\" = \"10 mM\", \"H+\" = \"0.1 M\" }");
+            let s = load_for(SpecSource::new("p.toml", t), Purpose::Forecast).unwrap();
+            approx::assert_relative_eq!(s.reaction.unwrap().nu, nu);
+        }
+    }
+}

@@ -1012,16 +1012,18 @@ impl Checker<'_> {
             }
         };
         let reaction = match &raw.reaction {
-            None if self.purpose == Purpose::Forecast => return Err(self.err(
-                0..0,
-                "a forecast needs a [reaction]",
-                "",
-                format!(
+            None if self.purpose == Purpose::Forecast => {
+                return Err(self.err(
+                    0..0,
+                    "a forecast needs a [reaction]",
+                    "",
+                    format!(
                     "add [reaction] with preset = \"{}\" (presets: {}), or spell out its rate law",
                     crate::presets::NAMES[0],
                     crate::presets::NAMES.join(", ")
                 ),
-            )),
+                ))
+            }
             None => None,
             Some(r) => Some(self.reaction(r, &timing_species, &available)?),
         };

@@ -340,3 +340,132 @@ fn missing_spec_file_exits_2() {
         .code(2)
         .stderr(predicate::str::contains("cannot read the spec"));
 }
+
+const FORECAST_DEMO: &str = include_str!("../plans/willow-creek-peroxide-forecast.toml");
+
+#[test]
+fn forecast_demo_times_every_run() {
+    clockprep()
+        .args(["forecast", "plans/willow-creek-peroxide-forecast.toml"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains(
+            "Clock-time forecast: Willow Creek Academy",
+        ))
+        .stdout(predicate::str::contains("not guarantees"))
+        .stdout(predicate::str::contains("calibrate it with a pilot run"))
+        .stdout(predicate::str::contains("Liebhafsky"))
+        .stdout(predicate::str::contains("safety officer"));
+}
+
+#[test]
+fn forecast_json_has_the_documented_fields() {
+    let out = clockprep()
+        .args([
+            "forecast",
+            "plans/willow-creek-peroxide-forecast.toml",
+            "-f",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(json["format"], "clockprep-forecast/1");
+    for run in json["runs"].as_array().unwrap() {
+        let f = &run["forecast"];
+        for key in [
+            "clock_s",
+            "time_s",
+            "initial_rate_s",
+            "rate_M_per_s",
+            "max_conversion",
+        ] {
+            assert!(f[key].as_f64().unwrap() > 0.0, "{key}");
+        }
+        let band = f["band_s"].as_array().unwrap();
+        assert!(band[0].as_f64().unwrap() < band[1].as_f64().unwrap());
+        assert!(f["warnings"].as_array().unwrap().is_empty());
+    }
+    // The plan sheet carries the same forecast per run.
+    let out = clockprep()
+        .args(["plan", "plans/maple-hollow-bromate.toml", "-f", "json"])
+        .output()
+        .unwrap();
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for run in json["runs"].as_array().unwrap() {
+        assert!(run["forecast"]["clock_s"].as_f64().unwrap() > 15.0);
+    }
+    assert_eq!(json["reaction"]["nu"], 6.0);
+}
+
+#[test]
+fn a_run_set_that_times_badly_exits_1() {
+    // A tenth of the timing reagent makes every peroxide run clock in a tenth of the time:
+    // 11-25 s against a 20 s lower limit.
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("draft.toml");
+    std::fs::write(
+        &spec,
+        FORECAST_DEMO.replace(
+            "concentration = \"1.00 mM\"",
+            "concentration = \"0.100 mM\"",
+        ),
+    )
+    .unwrap();
+    clockprep()
+        .arg("forecast")
+        .arg(&spec)
+        .assert()
+        .code(1)
+        .stdout(predicate::str::contains("FLAG [too_fast]"));
+}
+
+/// Bad reaction and forecast settings, on the forecast demo.
+const BAD_FORECAST: &[(&str, &str, &str, &str)] = &[
+    ("unknown preset", "preset = \"peroxide-iodide\"", "preset = \"peroxide-bromide\"", "unknown reaction preset 'peroxide-bromide'"),
+    ("missing temperature", "temperature = \"20 °C\"\n", "", "needs the planned room temperature"),
+    ("band too wide", "temperature_band = \"2 °C\"", "temperature_band = \"30 °C\"", "from 0 to 15 °C"),
+    ("window reversed", "window = [\"20 s\", \"8 min\"]", "window = [\"8 min\", \"20 s\"]", "longer to shorter"),
+    ("no reaction", "[reaction]\npreset = \"peroxide-iodide\"", "", "a forecast needs a [reaction]"),
+    (
+        "k units do not match the orders",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\n[[reaction.term]]\nk = \"0.69 L mol^-1 min^-1\"\nat = \"25 °C\"\norders = { \"H2O2\" = 1, \"I-\" = 1, \"H+\" = 1 }",
+        "overall order 3 needs M^-2 s^-1",
+    ),
+    (
+        "rate-law species missing from the runs",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\n[[reaction.term]]\nk = \"0.69 L mol^-1 min^-1\"\nat = \"25 °C\"\norders = { \"H2O2\" = 1, \"Fe^3+\" = 1 }",
+        "the rate law needs Fe^3+",
+    ),
+    ("bad equation", "preset = \"peroxide-iodide\"", "preset = \"peroxide-iodide\"\nmain = \"H2O2 + 2 I- 2 H+ -> I2 + 2 H2O\"", "expected '+' or '->'"),
+    (
+        "activation energy without its unit",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\n[[reaction.term]]\nk = \"0.0115 M^-1 s^-1\"\nat = \"25 °C\"\nactivation_energy = \"56\"\norders = { \"H2O2\" = 1, \"I-\" = 1 }",
+        "activation_energy",
+    ),
+];
+
+#[test]
+fn bad_reactions_exit_2_with_a_located_message() {
+    for (what, from, to, expect) in BAD_FORECAST {
+        assert!(
+            FORECAST_DEMO.contains(from),
+            "{what}: the demo no longer contains {from:?}"
+        );
+        let dir = tempfile::tempdir().unwrap();
+        let spec = dir.path().join("bad.toml");
+        std::fs::write(&spec, FORECAST_DEMO.replacen(from, to, 1)).unwrap();
+        let result = clockprep().arg("forecast").arg(&spec).output().unwrap();
+        let stderr = String::from_utf8_lossy(&result.stderr);
+        assert_eq!(result.status.code(), Some(2), "{what}: {stderr}");
+        assert!(
+            stderr.contains(expect),
+            "{what}: expected {expect:?} in\n{stderr}"
+        );
+        assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
+        assert!(result.stdout.is_empty(), "{what}: printed a sheet");
+    }
+}
