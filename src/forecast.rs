@@ -203,15 +203,10 @@ orders = {{ "BrO3-" = 1, "I-" = 1 }}
     }
 
     fn run(spec: &Spec) -> Forecast {
-        let initial: Vec<Vec<(String, f64)>> = spec
+        let initial: Vec<_> = spec
             .runs
             .iter()
-            .map(|r| {
-                r.targets
-                    .iter()
-                    .map(|t| (t.species.clone(), t.concentration))
-                    .collect()
-            })
+            .map(|r| r.target_concentrations())
             .collect();
         forecast(spec, &initial).unwrap()
     }

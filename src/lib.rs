@@ -49,15 +49,10 @@ pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
 /// Forecast clock times from the target concentrations alone (no stocks or glassware needed).
 pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
     let spec = spec::load_for(source, spec::Purpose::Forecast)?;
-    let initial: Vec<Vec<(String, f64)>> = spec
+    let initial: Vec<_> = spec
         .runs
         .iter()
-        .map(|r| {
-            r.targets
-                .iter()
-                .map(|t| (t.species.clone(), t.concentration))
-                .collect()
-        })
+        .map(|r| r.target_concentrations())
         .collect();
     let forecast =
         forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");

@@ -266,6 +266,16 @@ pub struct Run {
     pub span: Range<usize>,
 }
 
+impl Run {
+    /// The targets as (species, mol/L), the initial concentrations of a forecast-only run.
+    pub fn target_concentrations(&self) -> Vec<(String, f64)> {
+        self.targets
+            .iter()
+            .map(|t| (t.species.clone(), t.concentration))
+            .collect()
+    }
+}
+
 #[derive(Debug, Clone)]
 pub struct Timing {
     pub species: String,
