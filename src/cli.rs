@@ -35,6 +35,13 @@ pub enum Command {
         #[command(flatten)]
         out: OutputArgs,
     },
+    /// Print the stock preparation sheet: what to make, in which flask, how to weigh it up.
+    Stocks {
+        /// The plan spec (TOML).
+        spec: PathBuf,
+        #[command(flatten)]
+        out: OutputArgs,
+    },
     /// Forecast the time to colour of every run from its target concentrations and the prior
     /// rate law in [reaction] (no stocks or glassware needed).
     Forecast {
@@ -109,6 +116,12 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             } else {
                 EXIT_OK
             })
+        }
+        Command::Stocks { spec, out } => {
+            let sheet = crate::stocks(read_spec(&spec)?)?;
+            let bytes = export::export_stocks(&sheet, out.format.into());
+            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            Ok(EXIT_OK)
         }
         Command::Forecast { spec, out } => {
             let sheet = crate::forecast_only(read_spec(&spec)?)?;

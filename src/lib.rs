@@ -5,6 +5,7 @@
 //! [`mixing`] (the two portions mixed at t = 0) → [`totals`] (stock to prepare) →
 //! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON, Markdown).
 
+pub mod chem;
 pub mod cli;
 pub mod device;
 pub mod error;
@@ -14,6 +15,7 @@ pub mod kinetics;
 pub mod mixing;
 pub mod output;
 pub mod presets;
+pub mod recipes;
 pub mod report;
 pub mod safety;
 pub mod solve;
@@ -57,4 +59,13 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
     let forecast =
         forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");
     Ok(report::build_forecast(&spec, &forecast))
+}
+
+/// The stock preparation sheet: what to make, in which flask, and how to weigh it up.
+pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
+    let spec = spec::load(source)?;
+    let solution = solve::solve(&spec)?;
+    let totals = totals::compute(&spec, &solution);
+    let preps = recipes::prepare(&spec, &totals);
+    Ok(report::build_stocks(&spec, &preps))
 }

@@ -1,6 +1,10 @@
-//! Cautions printed on every sheet. General lines always; reagent lines for the species the plan
-//! actually uses. These are reminders, not a risk assessment: every sheet defers to the
-//! supplier's SDS, local rules and the institution's safety officer.
+//! Cautions printed on every sheet and card: general lines always, and a line for each reagent
+//! the plan uses, from the reagent data file `src/data/reagents.toml` (GHS hazard codes, plain
+//! words, stability, source). These are reminders, not a risk assessment: every sheet defers
+//! to the supplier's SDS, local rules and the institution's safety officer.
+
+use serde::Deserialize;
+use std::sync::OnceLock;
 
 /// Lines printed on every sheet, whatever the reagents (common practice in teaching labs).
 pub const GENERAL: [&str; 4] = [
@@ -10,28 +14,104 @@ pub const GENERAL: [&str; 4] = [
     "Volumes and any predicted times are planning aids, not guarantees: check a pilot run before the class.",
 ];
 
-/// Reagent cautions, printed when the plan uses all of the listed species. Plain-language summaries of the usual hazard statements
-/// for the common salts; `from memory`, to be replaced by the sourced reagent data file.
-const BY_SPECIES: [(&[&str], &str); 8] = [
-    (&["BrO3-"], "Bromate (e.g. potassium bromate): strong oxidiser, toxic if swallowed, may cause cancer. Weigh it without raising dust, keep it away from organic material, and wash hands after handling."),
-    (&["S2O8^2-"], "Persulfate (peroxodisulfate): oxidiser; may cause skin sensitisation and asthma-like symptoms if its dust is inhaled."),
-    (&["H2O2"], "Hydrogen peroxide: oxidiser; can cause serious eye damage. Store stocks cool and vented."),
-    (&["IO3-"], "Iodate: oxidiser; keep away from combustible material."),
-    (&["H+"], "Acid stocks irritate or burn skin and eyes; when diluting, add acid to water."),
-    (&["HSO3-"], "Bisulfite releases sulfur dioxide with acid; prepare and use it in a well-ventilated area."),
-    (&["S2O3^2-", "H+"], "Thiosulfate decomposes in acid (sulfur and sulfur dioxide): keep the thiosulfate stock out of the acid portion."),
-    (&["I-"], "Iodide and iodine solutions stain skin and clothes; iodine vapour irritates eyes."),
-];
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Reagent {
+    pub name: String,
+    pub solutes: Vec<String>,
+    pub species: Vec<String>,
+    pub ghs: Vec<String>,
+    pub plain: String,
+    pub stability: String,
+    pub source: String,
+}
 
-/// All cautions for a plan whose used stocks contain `species`.
-pub fn cautions<'a>(species: impl IntoIterator<Item = &'a str> + Clone) -> Vec<String> {
-    let mut out: Vec<String> = GENERAL.iter().map(|s| s.to_string()).collect();
-    for (needs, line) in BY_SPECIES {
-        if needs
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Incompatible {
+    pub species: Vec<String>,
+    pub plain: String,
+    pub source: String,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct Data {
+    reagent: Vec<Reagent>,
+    incompatible: Vec<Incompatible>,
+}
+
+fn data() -> &'static Data {
+    static DATA: OnceLock<Data> = OnceLock::new();
+    DATA.get_or_init(|| {
+        toml::from_str(include_str!("data/reagents.toml"))
+            .expect("the reagent data file is valid (checked by a unit test)")
+    })
+}
+
+/// A formula with its hydrate dot written one way, for comparison.
+fn normal(formula: &str) -> String {
+    formula
+        .trim()
+        .replace(['*', '•'], "·")
+        .replace(".5H2O", "·5H2O")
+}
+
+/// The reagent entry for a stock: by its solute formula, else by the first species that
+/// identifies one.
+pub fn reagent_for(solute: Option<&str>, species: &[&str]) -> Option<&'static Reagent> {
+    let d = data();
+    if let Some(s) = solute {
+        let s = normal(s);
+        if let Some(r) = d
+            .reagent
             .iter()
-            .all(|sp| species.clone().into_iter().any(|s| s == *sp))
+            .find(|r| r.solutes.iter().any(|x| normal(x) == s))
         {
-            out.push(line.to_string());
+            return Some(r);
+        }
+    }
+    species
+        .iter()
+        .find_map(|sp| d.reagent.iter().find(|r| r.species.iter().any(|x| x == sp)))
+}
+
+/// The caution line of one reagent.
+pub fn line(r: &Reagent) -> String {
+    let mut name = r.name.clone();
+    if let Some(first) = name.get_mut(0..1) {
+        first.make_ascii_uppercase();
+    }
+    if r.ghs.is_empty() {
+        format!("{name}: {}.", r.plain)
+    } else {
+        format!("{name} ({}): {}.", r.ghs.join(", "), r.plain)
+    }
+}
+
+/// All cautions for a plan whose stocks are given as (solute, species it contains).
+pub fn cautions<'a>(
+    stocks: impl IntoIterator<Item = (Option<&'a str>, Vec<&'a str>)>,
+) -> Vec<String> {
+    let mut out: Vec<String> = GENERAL.iter().map(|s| s.to_string()).collect();
+    let mut names: Vec<&str> = Vec::new();
+    let mut all_species: Vec<&str> = Vec::new();
+    for (solute, species) in stocks {
+        if let Some(r) = reagent_for(solute, &species) {
+            if !names.contains(&r.name.as_str()) {
+                names.push(&r.name);
+                out.push(line(r));
+            }
+        }
+        all_species.extend(species);
+    }
+    for inc in &data().incompatible {
+        if inc
+            .species
+            .iter()
+            .all(|s| all_species.contains(&s.as_str()))
+        {
+            out.push(inc.plain.clone());
         }
     }
     out
@@ -42,14 +122,40 @@ mod tests {
     use super::*;
 
     #[test]
+    fn data_file_is_complete() {
+        let d = data();
+        assert!(d.reagent.len() >= 10);
+        for r in &d.reagent {
+            assert!(!r.source.is_empty() && !r.plain.is_empty(), "{}", r.name);
+            for code in &r.ghs {
+                let digits = code.trim_start_matches("EUH").trim_start_matches('H');
+                assert!(
+                    digits.len() == 3 && digits.chars().all(|c| c.is_ascii_digit()),
+                    "{}: {code}",
+                    r.name
+                );
+            }
+        }
+    }
+
+    #[test]
     fn general_lines_always_and_bromate_when_used() {
-        let none = cautions(Vec::<&str>::new());
+        let none = cautions(Vec::new());
         assert_eq!(none.len(), GENERAL.len());
-        assert!(none.iter().any(|l| l.contains("goggles")));
-        assert!(none.iter().any(|l| l.contains("SDS")));
-        assert!(none.iter().any(|l| l.contains("waste")));
-        assert!(none.iter().any(|l| l.contains("safety officer")));
-        let with = cautions(vec!["BrO3-", "K+"]);
-        assert!(with.iter().any(|l| l.contains("may cause cancer")));
+        for word in ["goggles", "gloves", "SDS", "waste", "safety officer"] {
+            assert!(none.iter().any(|l| l.contains(word)), "{word}");
+        }
+        let with = cautions(vec![(Some("KBrO3"), vec!["BrO3-", "K+"])]);
+        assert!(with
+            .iter()
+            .any(|l| l.contains("may cause cancer") && l.contains("H350")));
+        // Found by species when no solute is named; thiosulfate with acid adds the pair line.
+        let acid = cautions(vec![
+            (None, vec!["H+", "Cl-"]),
+            (Some("Na2S2O3*5H2O"), vec!["S2O3^2-"]),
+        ]);
+        assert!(acid.iter().any(|l| l.starts_with("Hydrochloric acid")));
+        assert!(acid.iter().any(|l| l.starts_with("Sodium thiosulfate")));
+        assert!(acid.iter().any(|l| l.contains("decomposes in acid")));
     }
 }

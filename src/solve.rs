@@ -173,7 +173,12 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     let stock = &spec.stocks[timing_stock];
     let c_stock = stock.concentration_of(&t.species);
     let v_timing = t.concentration * spec.total_volume / c_stock;
-    let fixed_sum: f64 = spec.stocks.iter().filter_map(|s| s.fixed_volume).sum();
+    let fixed_sum: f64 = spec
+        .stocks
+        .iter()
+        .filter(|s| s.in_runs)
+        .filter_map(|s| s.fixed_volume)
+        .sum();
     if v_timing + fixed_sum > spec.total_volume * (1.0 + 1e-12) {
         let (span, what) = if fixed_sum > 0.0 {
             (
@@ -245,7 +250,9 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
         delivery,
     });
     for (i, s) in spec.stocks.iter().enumerate() {
-        let Some(v) = s.fixed_volume else { continue };
+        let Some(v) = s.fixed_volume.filter(|_| s.in_runs) else {
+            continue;
+        };
         let delivery = find_delivery(v, &s.devices, &spec.devices).ok_or_else(|| {
             spec.source.error(
                 s.name_span.clone(),
@@ -323,7 +330,7 @@ impl<'a> RunModel<'a> {
     fn new(spec: &'a Spec, run: &'a Run, constant: &Constant, ionic: Option<f64>) -> Self {
         let fixed: Vec<usize> = constant.additions.iter().filter_map(|a| a.stock).collect();
         let vary: Vec<usize> = (0..spec.stocks.len())
-            .filter(|s| !fixed.contains(s))
+            .filter(|&s| spec.stocks[s].in_runs && !fixed.contains(&s))
             .filter(|&s| {
                 let st = &spec.stocks[s];
                 let is_salt = ionic.is_some() && spec.ionic.as_ref().is_some_and(|i| i.stock == s);

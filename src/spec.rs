@@ -150,6 +150,19 @@ struct RawStock {
     fixed_volume: Option<Q>,
     devices: Option<Vec<Name>>,
     note: Option<String>,
+    solute_concentration: Option<Q>,
+    purity: Option<Q>,
+    dilute_from: Option<Name>,
+    concentrate: Option<Spanned<RawConcentrate>>,
+    in_runs: Option<bool>,
+}
+
+/// A liquid reagent measured by volume: concentrated acid, 30 % peroxide.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawConcentrate {
+    density: Q,
+    mass_fraction: Q,
 }
 
 #[derive(Debug, Deserialize)]
@@ -227,6 +240,34 @@ pub struct Stock {
     pub note: Option<String>,
     pub span: Range<usize>,
     pub name_span: Range<usize>,
+    /// How the stock is made up.
+    pub recipe: Recipe,
+    /// False for a bench concentrate that is only diluted to make other stocks.
+    pub in_runs: bool,
+}
+
+/// How a stock is made up in its volumetric flask.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Recipe {
+    /// Weigh a solid: solute formula-unit concentration (mol/L), molar mass (g/mol), purity.
+    Weigh {
+        formula: String,
+        concentration: f64,
+        molar_mass: f64,
+        purity: f64,
+    },
+    /// Measure a liquid reagent by volume (mass fraction w, density g/mL).
+    Measure {
+        formula: String,
+        concentration: f64,
+        molar_mass: f64,
+        mass_fraction: f64,
+        density: f64,
+    },
+    /// Dilute another stock of the spec: factor = this concentration / that one (M1V1 = M2V2).
+    Dilute { from: usize, factor: f64 },
+    /// No recipe can be computed (no solute formula); follow the method in use.
+    None,
 }
 
 impl Stock {
@@ -752,7 +793,10 @@ impl Checker<'_> {
                     "give its contents, e.g. contains = { \"I-\" = \"0.0150 M\", \"K+\" = \"0.0150 M\" }, or a fixed_volume for an indicator",
                 ));
             }
+            let recipe = self.recipe(r, &name, &contains, &stocks)?;
             stocks.push(Stock {
+                recipe,
+                in_runs: r.in_runs.unwrap_or(true),
                 name,
                 solute: r.solute.as_ref().map(|s| s.get_ref().trim().to_string()),
                 contains,
@@ -803,7 +847,7 @@ impl Checker<'_> {
             "timing concentration",
         )?;
         let holders: Vec<usize> = (0..stocks.len())
-            .filter(|&i| stocks[i].concentration_of(&timing_species) > 0.0)
+            .filter(|&i| stocks[i].in_runs && stocks[i].concentration_of(&timing_species) > 0.0)
             .collect();
         let timing_stock =
             match holders.as_slice() {
@@ -1433,6 +1477,142 @@ impl Checker<'_> {
         };
         Reaction::new(name, rate_species, timing.to_string(), main, clock, terms, visible)
             .map_err(|e| mc.err(inner(main_name.span(), &mc.src.text), format!("the reaction does not make a clock: {e}"), "here", "the main reaction must consume the rate species and make what the clock reaction removes with the timing species"))
+    }
+
+    /// The recipe of a stock: dilution of an earlier stock, a liquid measured by volume, or a
+    /// solid weighed out; the solute's formula-unit concentration defaults to that of the first
+    /// species listed in `contains`.
+    fn recipe(
+        &self,
+        r: &RawStock,
+        name: &str,
+        contains: &[(String, f64)],
+        earlier: &[Stock],
+    ) -> Result<Recipe> {
+        let solute_c = match &r.solute_concentration {
+            Some(q) => Some(self.positive(q, Kind::Concentration, "solute_concentration")?),
+            None => contains.first().map(|(_, c)| *c),
+        };
+        if let Some(from) = &r.dilute_from {
+            let key = from.get_ref().trim();
+            let at = inner(from.span(), &self.src.text);
+            let i = earlier.iter().position(|s| s.name == key).ok_or_else(|| {
+                self.err(
+                    at.clone(),
+                    format!("unknown stock '{key}'"),
+                    "not an earlier [[stock]]",
+                    "dilute from a stock listed above this one",
+                )
+            })?;
+            let src = &earlier[i];
+            if matches!(src.recipe, Recipe::Dilute { .. }) {
+                return Err(self.err(
+                    at,
+                    format!("'{key}' is itself a dilution"),
+                    "dilution of a dilution",
+                    "dilute from a stock that is made up directly",
+                ));
+            }
+            // Compare the first species of this stock in both.
+            let Some((sp, c)) = contains.first() else {
+                return Err(self.err(
+                    at,
+                    "a dilution needs the contents of the stock",
+                    "here",
+                    "give contains = { ... }",
+                ));
+            };
+            let c_src = src.concentration_of(sp);
+            if c_src <= *c {
+                return Err(self.err(
+                    at,
+                    format!("'{key}' is not more concentrated in {sp} than '{name}'"),
+                    "cannot dilute up",
+                    "dilute from a more concentrated stock",
+                ));
+            }
+            return Ok(Recipe::Dilute {
+                from: i,
+                factor: c / c_src,
+            });
+        }
+        let Some(solute) = &r.solute else {
+            return Ok(Recipe::None);
+        };
+        let formula = solute.get_ref().trim();
+        let at = inner(solute.span(), &self.src.text);
+        let molar_mass =
+            match crate::chem::molar_mass(formula) {
+                Ok(m) => m,
+                // A named preparation such as "starch" is fine without a formula.
+                Err(_) if crate::safety::reagent_for(Some(formula), &[]).is_some() => {
+                    return Ok(Recipe::None)
+                }
+                Err(e) => return Err(self.err(
+                    at.start + e.at..at.start + e.at + 1,
+                    format!("solute '{formula}': {}", e.message),
+                    "not a formula",
+                    "write the solid's formula, e.g. solute = \"Na2S2O3·5H2O\" (or Na2S2O3*5H2O)",
+                )),
+            };
+        let concentration = solute_c.ok_or_else(|| {
+            self.err(
+                at.clone(),
+                format!("stock '{name}' needs its solute concentration"),
+                "here",
+                "add solute_concentration = \"0.100 M\"",
+            )
+        })?;
+        let purity = match &r.purity {
+            None => 1.0,
+            Some(q) => {
+                let p = self.positive(q, Kind::Fraction, "purity")?;
+                if p > 1.0 {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "purity cannot exceed 100 %",
+                        "too high",
+                        "e.g. purity = \"99.5 %\"",
+                    ));
+                }
+                p
+            }
+        };
+        match &r.concentrate {
+            None => Ok(Recipe::Weigh {
+                formula: formula.to_string(),
+                concentration,
+                molar_mass,
+                purity,
+            }),
+            Some(c) => {
+                let c = c.get_ref();
+                let density = self.special(
+                    &c.density,
+                    "density",
+                    Kind::Concentration,
+                    "\"1.18 g/mL\"",
+                    units::parse_density,
+                )?;
+                let mass_fraction =
+                    self.positive(&c.mass_fraction, Kind::Fraction, "mass_fraction")?;
+                if mass_fraction > 1.0 {
+                    return Err(self.err(
+                        inner(c.mass_fraction.span(), &self.src.text),
+                        "mass_fraction cannot exceed 100 %",
+                        "too high",
+                        "e.g. mass_fraction = \"37 %\"",
+                    ));
+                }
+                Ok(Recipe::Measure {
+                    formula: formula.to_string(),
+                    concentration,
+                    molar_mass,
+                    mass_fraction,
+                    density,
+                })
+            }
+        }
     }
 
     fn device(&self, r: &RawDevice, span: Range<usize>) -> Result<Device> {

@@ -329,6 +329,23 @@ pub fn parse_energy(text: &str) -> Result<f64, UnitError> {
     Ok(p.value * factor)
 }
 
+/// A density in g/mL from "1.18 g/mL", "1.18 g/cm3" or "1180 g/L" / "1.18 kg/L".
+pub fn parse_density(text: &str) -> Result<f64, UnitError> {
+    let p = split_number(text)?;
+    let factor = match p.unit {
+        "" => return Err(UnitError::MissingUnit { at: p.number_at }),
+        "g/mL" | "g/ml" | "g/cm3" | "g/cm^3" | "kg/L" => 1.0,
+        "g/L" => 1e-3,
+        other => {
+            return Err(UnitError::UnknownUnit {
+                unit: other.to_string(),
+                at: p.unit_at,
+            })
+        }
+    };
+    Ok(p.value * factor)
+}
+
 /// A temperature difference in kelvin from "3 °C", "3 K" or "3 degC" (no offset).
 pub fn parse_temperature_difference(text: &str) -> Result<f64, UnitError> {
     let p = split_number(text)?;

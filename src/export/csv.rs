@@ -1,5 +1,5 @@
 use super::Exporter;
-use crate::report::{ForecastReport, ForecastSheet, PlanReport};
+use crate::report::{ForecastReport, ForecastSheet, PlanReport, StockSheet};
 
 /// Long-format CSV for spreadsheets: one row per value.
 ///
@@ -191,5 +191,44 @@ impl Exporter for Csv {
             w.value("", "warning", f.code, f.message.clone());
         }
         w.finish()
+    }
+
+    /// One row per stock: what to make and how.
+    fn stocks(&self, sheet: &StockSheet) -> Vec<u8> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
+        w.write_record([
+            "stock",
+            "solute",
+            "molar_mass_g_per_mol",
+            "need_mL",
+            "flask_mL",
+            "flask_count",
+            "recipe",
+            "grams_per_flask",
+            "mL_per_flask",
+            "from",
+            "hazard_codes",
+            "instruction",
+        ])
+        .expect("writing to memory cannot fail");
+        for s in &sheet.stocks {
+            w.write_record([
+                s.name.clone(),
+                s.solute.clone().unwrap_or_default(),
+                opt(s.molar_mass),
+                s.need_ml.to_string(),
+                s.flask_ml.to_string(),
+                s.flask_count.to_string(),
+                s.recipe.kind.to_string(),
+                opt(s.recipe.grams),
+                opt(s.recipe.ml),
+                s.recipe.from.clone().unwrap_or_default(),
+                s.hazard_codes.join(" "),
+                s.recipe.text.clone(),
+            ])
+            .expect("writing to memory cannot fail");
+        }
+        w.into_inner().expect("writing to memory cannot fail")
     }
 }

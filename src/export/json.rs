@@ -1,5 +1,5 @@
 use super::Exporter;
-use crate::report::{ForecastSheet, PlanReport};
+use crate::report::{ForecastSheet, PlanReport, StockSheet};
 use serde::Serialize;
 
 fn pretty(value: &impl Serialize) -> Vec<u8> {
@@ -17,6 +17,10 @@ impl Exporter for Json {
     }
 
     fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8> {
+        pretty(sheet)
+    }
+
+    fn stocks(&self, sheet: &StockSheet) -> Vec<u8> {
         pretty(sheet)
     }
 }

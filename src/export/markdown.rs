@@ -1,7 +1,7 @@
 use super::text::secs;
 use super::{ml_decimals, sig, Exporter};
 use crate::report::{
-    ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport,
+    ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, StockSheet,
 };
 use crate::solve::Flag;
 use std::fmt::Write;
@@ -268,6 +268,43 @@ impl Exporter for Markdown {
             reaction_text(&mut out, r, st);
         }
         cautions(&mut out, &report.cautions);
+        out.into_bytes()
+    }
+
+    fn stocks(&self, sheet: &StockSheet) -> Vec<u8> {
+        let mut out = String::new();
+        let _ = writeln!(out, "# Stock preparation: {}\n", esc(&sheet.title));
+        let _ = writeln!(
+            out,
+            "For {} station(s) × {} replicate(s) of every run, plus {} % overage.\n",
+            sheet.stations,
+            sheet.replicates,
+            sig(sheet.overage_pct, 3)
+        );
+        let _ = writeln!(
+            out,
+            "| stock | need (mL) | flask | how | hazards |\n|---|---:|---|---|---|"
+        );
+        for s in &sheet.stocks {
+            let _ = writeln!(
+                out,
+                "| {} | {:.1} | {} × {} mL | {} | {} |",
+                esc(&s.name),
+                s.need_ml,
+                s.flask_count,
+                s.flask_ml,
+                esc(&s.recipe.text),
+                esc(&s.hazard_codes.join(", "))
+            );
+        }
+        out.push('\n');
+        for s in &sheet.stocks {
+            if let Some(st) = &s.stability {
+                let _ = writeln!(out, "- **{}**: {}.", esc(&s.name), esc(st));
+            }
+        }
+        out.push('\n');
+        cautions(&mut out, &sheet.cautions);
         out.into_bytes()
     }
 }

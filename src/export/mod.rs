@@ -6,7 +6,7 @@ mod json;
 mod markdown;
 mod text;
 
-use crate::report::{ForecastSheet, PlanReport};
+use crate::report::{ForecastSheet, PlanReport, StockSheet};
 
 pub use self::csv::Csv;
 pub use self::json::Json;
@@ -19,6 +19,8 @@ pub trait Exporter {
     fn plan(&self, report: &PlanReport) -> Vec<u8>;
     /// The sheet of `clockprep forecast`.
     fn forecast(&self, sheet: &ForecastSheet) -> Vec<u8>;
+    /// The stock preparation sheet of `clockprep stocks`.
+    fn stocks(&self, sheet: &StockSheet) -> Vec<u8>;
 }
 
 /// The output formats of `clockprep plan`.
@@ -44,6 +46,11 @@ impl Format {
 /// Export a plan report in `format`.
 pub fn export(report: &PlanReport, format: Format) -> Vec<u8> {
     format.exporter().plan(report)
+}
+
+/// Export a stock preparation sheet in `format`.
+pub fn export_stocks(sheet: &StockSheet, format: Format) -> Vec<u8> {
+    format.exporter().stocks(sheet)
 }
 
 /// Export a forecast sheet in `format`.

@@ -1,6 +1,7 @@
 use super::{ml_decimals, sig, Exporter};
 use crate::report::{
     ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport,
+    StockSheet,
 };
 use crate::solve::Flag;
 use std::fmt::Write;
@@ -490,6 +491,76 @@ impl Exporter for Text {
             out.push('\n');
         }
         reaction_section(&mut out, &sheet.reaction, &sheet.forecast_settings);
+        cautions(&mut out, &sheet.cautions);
+        out.into_bytes()
+    }
+
+    fn stocks(&self, sheet: &StockSheet) -> Vec<u8> {
+        let mut out = String::new();
+        heading(&mut out, &format!("Stock preparation: {}", sheet.title));
+        let _ = writeln!(out, "Spec: {}", sheet.spec);
+        let _ = writeln!(
+            out,
+            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, in volumetric flasks.\n",
+            sheet.stations, sheet.replicates, sig(sheet.overage_pct, 3)
+        );
+        let rows: Vec<Vec<String>> = sheet
+            .stocks
+            .iter()
+            .map(|s| {
+                let amount = match (s.recipe.grams, s.recipe.ml) {
+                    (Some(g), _) => format!("{g:.4} g"),
+                    (None, Some(v)) => format!("{v:.2} mL"),
+                    _ => "-".into(),
+                };
+                vec![
+                    s.name.clone(),
+                    format!("{:.1}", s.need_ml),
+                    format!("{} x {} mL", s.flask_count, s.flask_ml),
+                    s.recipe.kind.to_string(),
+                    amount,
+                ]
+            })
+            .collect();
+        out.push_str(&table(
+            0,
+            &["stock", "need (mL)", "flask", "recipe", "per flask"],
+            &[
+                Align::Left,
+                Align::Right,
+                Align::Left,
+                Align::Left,
+                Align::Right,
+            ],
+            &rows,
+        ));
+        out.push('\n');
+        for s in &sheet.stocks {
+            heading(&mut out, &s.name);
+            let _ = writeln!(out, "{}", s.recipe.text);
+            if s.drawn_ml > 0.0 {
+                let _ = writeln!(
+                    out,
+                    "Includes {:.1} mL drawn to make other stocks.",
+                    s.drawn_ml
+                );
+            }
+            if let Some(st) = &s.stability {
+                let _ = writeln!(out, "Stability: {st}.");
+            }
+            if let Some(h) = &s.hazards {
+                let codes = if s.hazard_codes.is_empty() {
+                    String::new()
+                } else {
+                    format!(" ({})", s.hazard_codes.join(", "))
+                };
+                let _ = writeln!(out, "Hazards{codes}: {h}.");
+            }
+            if let Some(src) = &s.data_source {
+                let _ = writeln!(out, "Data: {src}; check the supplier's SDS.");
+            }
+            out.push('\n');
+        }
         cautions(&mut out, &sheet.cautions);
         out.into_bytes()
     }

@@ -1,0 +1,145 @@
+//! Stock preparation: for every stock the plan needs, the flask to make it in and how to make
+//! it — the mass of solid to weigh (c·V·M / purity), the volume of a liquid reagent to measure
+//! (c·V·M / (w·ρ)), or the volume of a stronger stock to dilute (M1V1 = M2V2). Stocks that are
+//! only diluted (bench concentrates) are added with the volume the dilutions draw from them.
+
+use crate::spec::{Recipe, Spec};
+use crate::totals::{flask_for, Totals};
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum Action {
+    /// Grams of solid per flask.
+    Weigh { grams: f64 },
+    /// mL of liquid reagent per flask.
+    Measure { ml: f64 },
+    /// mL of another stock per flask.
+    Dilute { from: usize, ml: f64 },
+    /// Follow the method in use (no formula to compute from).
+    AsUsual,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Preparation {
+    pub stock: usize,
+    /// L needed: by the runs (with overage) plus what dilutions draw.
+    pub need: f64,
+    /// L drawn by dilutions of other stocks.
+    pub drawn: f64,
+    pub flask: f64,
+    pub flask_count: u32,
+    pub action: Action,
+}
+
+/// Mass (g) of a solid to weigh for `volume` L at `concentration` mol/L.
+pub fn mass_to_weigh(concentration: f64, volume: f64, molar_mass: f64, purity: f64) -> f64 {
+    concentration * volume * molar_mass / purity
+}
+
+/// Volume (L) of a stronger solution to dilute to `volume` L: V1 = C2·V2 / C1.
+pub fn dilution_volume(c_stock: f64, c_target: f64, volume: f64) -> f64 {
+    c_target * volume / c_stock
+}
+
+/// Volume (mL) of a liquid reagent of mass fraction `w` and density `rho` (g/mL) holding
+/// `concentration` × `volume` mol of a solute of molar mass `molar_mass`.
+pub fn liquid_volume_ml(concentration: f64, volume: f64, molar_mass: f64, w: f64, rho: f64) -> f64 {
+    concentration * volume * molar_mass / (w * rho)
+}
+
+pub fn prepare(spec: &Spec, totals: &Totals) -> Vec<Preparation> {
+    let mut need: Vec<f64> = vec![0.0; spec.stocks.len()];
+    let mut listed: Vec<usize> = Vec::new();
+    for t in &totals.stocks {
+        need[t.stock] = t.need;
+        listed.push(t.stock);
+    }
+    // Draws of dilutions from their sources (one level: a source is never itself a dilution).
+    let mut drawn = vec![0.0; spec.stocks.len()];
+    for &s in &listed {
+        if let Recipe::Dilute { from, factor } = spec.stocks[s].recipe {
+            let (flask, count) = flask_for(need[s], &spec.flasks);
+            drawn[from] += flask * count as f64 * factor;
+        }
+    }
+    for (s, &d) in drawn.iter().enumerate() {
+        if d > 0.0 && !listed.contains(&s) {
+            listed.push(s);
+        }
+    }
+    listed.sort_unstable();
+    listed
+        .into_iter()
+        .map(|s| {
+            let total = need[s] + drawn[s];
+            let (flask, flask_count) = flask_for(total, &spec.flasks);
+            let action = match &spec.stocks[s].recipe {
+                Recipe::Weigh {
+                    concentration,
+                    molar_mass,
+                    purity,
+                    ..
+                } => Action::Weigh {
+                    grams: mass_to_weigh(*concentration, flask, *molar_mass, *purity),
+                },
+                Recipe::Measure {
+                    concentration,
+                    molar_mass,
+                    mass_fraction,
+                    density,
+                    ..
+                } => Action::Measure {
+                    ml: liquid_volume_ml(
+                        *concentration,
+                        flask,
+                        *molar_mass,
+                        *mass_fraction,
+                        *density,
+                    ),
+                },
+                Recipe::Dilute { from, factor } => Action::Dilute {
+                    from: *from,
+                    ml: factor * flask * 1e3,
+                },
+                Recipe::None => Action::AsUsual,
+            };
+            Preparation {
+                stock: s,
+                need: total,
+                drawn: drawn[s],
+                flask,
+                flask_count,
+                action,
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn worked_recipes_by_hand() {
+        // 500 mL of 0.0400 M KBrO3 (167.00 g/mol, IUPAC 2021 weights) at 99.8 % assay:
+        // m = C·V·M/purity = 0.0400 × 0.500 × 167.00 / 0.998 = 3.3467 g.
+        assert_relative_eq!(
+            mass_to_weigh(0.0400, 0.500, 167.00, 0.998),
+            3.346_693,
+            max_relative = 1e-6
+        );
+        // M1V1 = M2V2 (common practice): 1000 mL of 0.100 M from 1.00 M takes 100 mL.
+        assert_relative_eq!(
+            dilution_volume(1.00, 0.100, 1.000),
+            0.100,
+            max_relative = 1e-12
+        );
+        // 250 mL of 1.00 M HCl (36.46 g/mol) from 37 % acid of 1.18 g/mL:
+        // 1.00 × 0.250 × 36.46 / (0.37 × 1.18) = 20.88 mL.
+        assert_relative_eq!(
+            liquid_volume_ml(1.00, 0.250, 36.46, 0.37, 1.18),
+            20.877,
+            max_relative = 1e-4
+        );
+    }
+}
