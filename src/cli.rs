@@ -42,6 +42,18 @@ pub enum Command {
         #[command(flatten)]
         out: OutputArgs,
     },
+    /// Write the forecast chart (SVG): predicted times with their temperature band and the
+    /// timing window.
+    Chart {
+        /// The spec (TOML).
+        spec: PathBuf,
+        /// Write to this file instead of stdout (atomically; never over the spec).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Replace the output file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
     /// Forecast the time to colour of every run from its target concentrations and the prior
     /// rate law in [reaction] (no stocks or glassware needed).
     Forecast {
@@ -121,6 +133,15 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             let sheet = crate::stocks(read_spec(&spec)?)?;
             let bytes = export::export_stocks(&sheet, out.format.into());
             emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            Ok(EXIT_OK)
+        }
+        Command::Chart {
+            spec,
+            output,
+            force,
+        } => {
+            let svg = crate::chart(read_spec(&spec)?)?;
+            emit(svg.as_bytes(), output.as_deref(), force, &spec)?;
             Ok(EXIT_OK)
         }
         Command::Forecast { spec, out } => {

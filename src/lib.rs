@@ -5,6 +5,7 @@
 //! [`mixing`] (the two portions mixed at t = 0) → [`totals`] (stock to prepare) →
 //! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON, Markdown).
 
+pub mod chart;
 pub mod chem;
 pub mod cli;
 pub mod device;
@@ -68,4 +69,61 @@ pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
     let totals = totals::compute(&spec, &solution);
     let preps = recipes::prepare(&spec, &totals);
     Ok(report::build_stocks(&spec, &preps))
+}
+
+/// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,
+/// else from the target concentrations.
+pub fn chart(source: SpecSource) -> Result<String> {
+    let has_stocks = !spec::load_for(source.clone(), spec::Purpose::Forecast)?
+        .stocks
+        .is_empty();
+    if has_stocks {
+        let report = plan(source)?;
+        let rows: Vec<chart::Row> = report
+            .runs
+            .iter()
+            .filter_map(|r| {
+                r.forecast.as_ref().map(|f| chart::Row {
+                    name: &r.name,
+                    forecast: f,
+                })
+            })
+            .collect();
+        let s = report
+            .forecast_settings
+            .as_ref()
+            .ok_or_else(|| no_reaction(&report.spec))?;
+        Ok(chart::svg(
+            &report.title,
+            &rows,
+            (s.window_s[0], s.window_s[1]),
+            s.band_c,
+        ))
+    } else {
+        let sheet = forecast_only(source)?;
+        let rows: Vec<chart::Row> = sheet
+            .runs
+            .iter()
+            .map(|r| chart::Row {
+                name: &r.name,
+                forecast: &r.forecast,
+            })
+            .collect();
+        let s = &sheet.forecast_settings;
+        Ok(chart::svg(
+            &sheet.title,
+            &rows,
+            (s.window_s[0], s.window_s[1]),
+            s.band_c,
+        ))
+    }
+}
+
+fn no_reaction(spec: &str) -> error::Error {
+    SpecSource::new(spec, "").error(
+        0..0,
+        "a chart needs a forecast, and the spec has no [reaction]",
+        "",
+        "add [reaction] with a preset, e.g. preset = \"bromate-iodide\"",
+    )
 }
