@@ -83,6 +83,7 @@ pub enum FormatArg {
     Csv,
     Json,
     Md,
+    Html,
 }
 
 impl From<FormatArg> for Format {
@@ -92,6 +93,7 @@ impl From<FormatArg> for Format {
             FormatArg::Csv => Format::Csv,
             FormatArg::Json => Format::Json,
             FormatArg::Md => Format::Markdown,
+            FormatArg::Html => Format::Html,
         }
     }
 }

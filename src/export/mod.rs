@@ -2,6 +2,7 @@
 //! one trait. The CLI decides where the bytes go.
 
 mod csv;
+mod html;
 mod json;
 mod markdown;
 mod text;
@@ -9,6 +10,7 @@ mod text;
 use crate::report::{ForecastSheet, PlanReport, StockSheet};
 
 pub use self::csv::Csv;
+pub use self::html::Html;
 pub use self::json::Json;
 pub use self::markdown::Markdown;
 pub use self::text::Text;
@@ -30,6 +32,7 @@ pub enum Format {
     Csv,
     Json,
     Markdown,
+    Html,
 }
 
 impl Format {
@@ -39,6 +42,7 @@ impl Format {
             Format::Csv => &Csv,
             Format::Json => &Json,
             Format::Markdown => &Markdown,
+            Format::Html => &Html,
         }
     }
 }
