@@ -2,6 +2,7 @@
 //! library, and decides where bytes and messages go.
 
 use crate::error::{Error, SpecSource};
+use crate::export::cards::{self, Paper, Per};
 use crate::export::{self, Format};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::{IsTerminal, Write};
@@ -42,6 +43,26 @@ pub enum Command {
         #[command(flatten)]
         out: OutputArgs,
     },
+    /// Print bench cards (HTML sized for A4 or Letter; PDF through headless Chromium).
+    Cards {
+        /// The plan spec (TOML).
+        spec: PathBuf,
+        /// One card per station (all its runs) or one per run.
+        #[arg(long, value_enum, default_value_t = PerArg::Station)]
+        per: PerArg,
+        /// Paper size.
+        #[arg(long, value_enum, default_value_t = PaperArg::A4)]
+        paper: PaperArg,
+        /// Write the HTML here (default: stdout, unless --pdf is given).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Also print the cards to this PDF (needs Chromium).
+        #[arg(long)]
+        pdf: Option<PathBuf>,
+        /// Replace output files that exist.
+        #[arg(long)]
+        force: bool,
+    },
     /// Write the forecast chart (SVG): predicted times with their temperature band and the
     /// timing window.
     Chart {
@@ -75,6 +96,18 @@ pub struct OutputArgs {
     /// Replace the output file if it exists.
     #[arg(long)]
     pub force: bool,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+pub enum PerArg {
+    Station,
+    Run,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+pub enum PaperArg {
+    A4,
+    Letter,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug)]
@@ -136,6 +169,44 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             let bytes = export::export_stocks(&sheet, out.format.into());
             emit(&bytes, out.output.as_deref(), out.force, &spec)?;
             Ok(EXIT_OK)
+        }
+        Command::Cards {
+            spec,
+            per,
+            paper,
+            output,
+            pdf,
+            force,
+        } => {
+            let report = crate::plan(read_spec(&spec)?)?;
+            let per = match per {
+                PerArg::Station => Per::Station,
+                PerArg::Run => Per::Run,
+            };
+            let paper = match paper {
+                PaperArg::A4 => Paper::A4,
+                PaperArg::Letter => Paper::Letter,
+            };
+            let html = cards::cards(&report, per, paper);
+            // Refuse before writing anything if an output would be refused.
+            for p in output.iter().chain(pdf.iter()) {
+                if p.exists() && !force {
+                    return Err(Error::OutputExists { path: p.clone() });
+                }
+            }
+            if output.is_some() || pdf.is_none() {
+                emit(&html, output.as_deref(), force, &spec)?;
+            }
+            if let Some(pdf_path) = pdf {
+                let browser = crate::pdf::find_browser().ok_or(Error::NoBrowser)?;
+                let bytes = crate::pdf::html_to_pdf(&html, &browser)?;
+                crate::output::write_file(&pdf_path, &bytes, force, &spec)?;
+            }
+            Ok(if report.flagged {
+                EXIT_FLAGGED
+            } else {
+                EXIT_OK
+            })
         }
         Command::Chart {
             spec,

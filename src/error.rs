@@ -96,6 +96,16 @@ pub enum Error {
         source: std::io::Error,
     },
 
+    #[error("no browser to print the PDF with; the HTML was still written where asked")]
+    #[diagnostic(help("install Chromium (Debian/Ubuntu: apt-get install chromium), or set CLOCKPREP_CHROMIUM to the browser's path; or print the HTML from any browser"))]
+    NoBrowser,
+
+    #[error("printing the PDF failed: {reason}")]
+    #[diagnostic(help(
+        "check that headless Chromium runs here; the HTML can also be printed from any browser"
+    ))]
+    Print { reason: String },
+
     /// The solver failed in a way the checks before it did not foresee.
     #[error("run '{run}': the solver stopped: {reason}")]
     #[diagnostic(help(

@@ -15,6 +15,7 @@ pub mod forecast;
 pub mod kinetics;
 pub mod mixing;
 pub mod output;
+pub mod pdf;
 pub mod presets;
 pub mod recipes;
 pub mod report;

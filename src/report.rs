@@ -237,6 +237,14 @@ pub struct PlanReport {
     /// True when any run carries a flag or forecast warning, or the plan a warning.
     pub flagged: bool,
     pub cautions: Vec<String>,
+    /// The reagents of the plan with their GHS hazard codes (for compact card cautions).
+    pub reagents: Vec<ReagentHazard>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReagentHazard {
+    pub name: String,
+    pub ghs: Vec<String>,
 }
 
 /// The output of `clockprep forecast`: forecasts from the target concentrations alone.
@@ -587,7 +595,14 @@ pub fn build(
             })
             .collect(),
         water_total_ml: ml(totals.water),
-        cautions: safety::cautions(stocks_used),
+        cautions: safety::cautions(stocks_used.clone()),
+        reagents: safety::reagents(stocks_used)
+            .into_iter()
+            .map(|r| ReagentHazard {
+                name: r.name.clone(),
+                ghs: r.ghs.clone(),
+            })
+            .collect(),
     }
 }
 

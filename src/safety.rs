@@ -89,22 +89,32 @@ pub fn line(r: &Reagent) -> String {
     }
 }
 
+/// The reagent entries of stocks given as (solute, species it contains), each once, in order.
+pub fn reagents<'a>(
+    stocks: impl IntoIterator<Item = (Option<&'a str>, Vec<&'a str>)>,
+) -> Vec<&'static Reagent> {
+    let mut out: Vec<&'static Reagent> = Vec::new();
+    for (solute, species) in stocks {
+        if let Some(r) = reagent_for(solute, &species) {
+            if !out.iter().any(|o| o.name == r.name) {
+                out.push(r);
+            }
+        }
+    }
+    out
+}
+
 /// All cautions for a plan whose stocks are given as (solute, species it contains).
 pub fn cautions<'a>(
     stocks: impl IntoIterator<Item = (Option<&'a str>, Vec<&'a str>)>,
 ) -> Vec<String> {
+    let stocks: Vec<(Option<&'a str>, Vec<&'a str>)> = stocks.into_iter().collect();
     let mut out: Vec<String> = GENERAL.iter().map(|s| s.to_string()).collect();
-    let mut names: Vec<&str> = Vec::new();
-    let mut all_species: Vec<&str> = Vec::new();
-    for (solute, species) in stocks {
-        if let Some(r) = reagent_for(solute, &species) {
-            if !names.contains(&r.name.as_str()) {
-                names.push(&r.name);
-                out.push(line(r));
-            }
-        }
-        all_species.extend(species);
-    }
+    out.extend(reagents(stocks.iter().cloned()).into_iter().map(line));
+    let all_species: Vec<&str> = stocks
+        .iter()
+        .flat_map(|(_, sp)| sp.iter().copied())
+        .collect();
     for inc in &data().incompatible {
         if inc
             .species

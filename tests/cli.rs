@@ -469,3 +469,52 @@ fn bad_reactions_exit_2_with_a_located_message() {
         assert!(result.stdout.is_empty(), "{what}: printed a sheet");
     }
 }
+
+#[test]
+fn stocks_chart_and_cards_commands() {
+    clockprep()
+        .args(["stocks", "plans/maple-hollow-bromate.toml"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("Weigh 6.6934 g of KBrO3"))
+        .stdout(predicate::str::contains("safety officer"));
+    clockprep()
+        .args(["chart", "plans/willow-creek-peroxide-forecast.toml"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::starts_with("<?xml"))
+        .stdout(predicate::str::contains("</svg>"));
+    clockprep()
+        .args([
+            "cards",
+            "plans/quarry-lane-persulfate.toml",
+            "--per",
+            "run",
+            "--paper",
+            "letter",
+        ])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("size: letter"))
+        .stdout(predicate::str::contains("Station ______"));
+}
+
+#[test]
+fn pdf_without_a_browser_says_how_to_install_one_and_keeps_the_html() {
+    let dir = tempfile::tempdir().unwrap();
+    let html = dir.path().join("cards.html");
+    let pdf = dir.path().join("cards.pdf");
+    clockprep()
+        .env("CLOCKPREP_CHROMIUM", dir.path().join("no-such-browser"))
+        .args(["cards", "plans/maple-hollow-bromate.toml", "-o"])
+        .arg(&html)
+        .arg("--pdf")
+        .arg(&pdf)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("apt-get install chromium"));
+    assert!(std::fs::read_to_string(&html)
+        .unwrap()
+        .contains("Bench cards"));
+    assert!(!pdf.exists());
+}

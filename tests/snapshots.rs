@@ -2,13 +2,15 @@
 //! `cargo insta review` (or delete the .snap file and rerun) and commit the new snapshot.
 
 use clockprep::error::SpecSource;
-use clockprep::export::{export, export_forecast, Format};
+use clockprep::export::cards::{cards, Paper, Per};
+use clockprep::export::{export, export_forecast, export_stocks, Format};
 
-const FORMATS: [(Format, &str); 4] = [
+const FORMATS: [(Format, &str); 5] = [
     (Format::Text, "txt"),
     (Format::Csv, "csv"),
     (Format::Json, "json"),
     (Format::Markdown, "md"),
+    (Format::Html, "html"),
 ];
 
 fn report(path: &str) -> clockprep::report::PlanReport {
@@ -44,4 +46,28 @@ fn peroxide_forecast_demo() {
         let text = String::from_utf8(export_forecast(&sheet, format)).unwrap();
         insta::assert_snapshot!(format!("peroxide_forecast_{ext}"), text);
     }
+}
+
+fn source(path: &str) -> SpecSource {
+    SpecSource::new(path, std::fs::read_to_string(path).unwrap())
+}
+
+#[test]
+fn bromate_stock_sheet() {
+    let sheet = clockprep::stocks(source("plans/maple-hollow-bromate.toml")).unwrap();
+    for (format, ext) in FORMATS {
+        let text = String::from_utf8(export_stocks(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("bromate_stocks_{ext}"), text);
+    }
+}
+
+#[test]
+fn bromate_cards_and_chart() {
+    let r = report("plans/maple-hollow-bromate.toml");
+    for (per, p) in [(Per::Run, "run"), (Per::Station, "station")] {
+        let html = String::from_utf8(cards(&r, per, Paper::A4)).unwrap();
+        insta::assert_snapshot!(format!("bromate_cards_{p}_a4"), html);
+    }
+    let svg = clockprep::chart(source("plans/maple-hollow-bromate.toml")).unwrap();
+    insta::assert_snapshot!("bromate_chart_svg", svg);
 }

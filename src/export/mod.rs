@@ -1,6 +1,7 @@
 //! Exporters: pure functions from a [`PlanReport`] to bytes, one small type per format behind
 //! one trait. The CLI decides where the bytes go.
 
+pub mod cards;
 mod csv;
 mod html;
 mod json;

@@ -1,0 +1,283 @@
+//! Bench cards: printable HTML sized to A4 or US Letter, never split across a page break.
+//!
+//! Layout (fixed, so the page count is known before printing): `--per run` puts two half-page
+//! cards on every page (one when there are more than four replicates to record), one card per
+//! run with a blank for the station; `--per station` gives
+//! each station full-page cards listing up to [`RUNS_PER_STATION_CARD`] runs each. Every card
+//! carries the cautions, the pour order, the predicted time with its band (marked as a
+//! forecast), and boxes to record measured times and temperatures.
+
+use super::text::secs;
+use crate::report::{PlanReport, RunReport};
+use maud::{html, Markup, PreEscaped, DOCTYPE};
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Per {
+    Station,
+    Run,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Paper {
+    A4,
+    Letter,
+}
+
+impl Paper {
+    /// Page width and height, mm.
+    fn size(self) -> (f64, f64) {
+        match self {
+            Paper::A4 => (210.0, 297.0),
+            Paper::Letter => (215.9, 279.4),
+        }
+    }
+
+    fn css(self) -> &'static str {
+        match self {
+            Paper::A4 => "A4",
+            Paper::Letter => "letter",
+        }
+    }
+}
+
+/// Most runs on one station card; a station with more gets several cards.
+pub const RUNS_PER_STATION_CARD: usize = 6;
+/// Page margin and the gap between two cards on a page, mm.
+const MARGIN: f64 = 10.0;
+const GAP: f64 = 6.0;
+
+/// Most replicates whose record rows fit a half-page run card; with more, each run card
+/// takes a whole page.
+pub const REPLICATES_ON_HALF_PAGE: u32 = 4;
+
+/// Cards on one page.
+fn per_page(report: &PlanReport, per: Per) -> usize {
+    match per {
+        Per::Run if report.replicates <= REPLICATES_ON_HALF_PAGE => 2,
+        _ => 1,
+    }
+}
+
+/// Pages the cards take: known from the layout alone.
+pub fn pages(report: &PlanReport, per: Per) -> usize {
+    let cards = match per {
+        Per::Run => report.runs.len(),
+        Per::Station => {
+            report.stations as usize * report.runs.len().div_ceil(RUNS_PER_STATION_CARD)
+        }
+    };
+    cards.div_ceil(per_page(report, per))
+}
+
+fn style(paper: Paper, per_page: usize) -> String {
+    let (w, h) = paper.size();
+    let inner_w = w - 2.0 * MARGIN;
+    let inner_h = h - 2.0 * MARGIN;
+    let card_h = match per_page {
+        2 => (inner_h - GAP) / 2.0 - 1.0,
+        _ => inner_h - 1.0,
+    };
+    format!(
+        r#"
+@page {{ size: {size}; margin: {MARGIN}mm; }}
+* {{ box-sizing: border-box; }}
+body {{ margin: 0; font-family: "DejaVu Sans", Arial, sans-serif; font-size: 8.3pt; color: #000; }}
+.page {{ width: {inner_w:.1}mm; height: {inner_h:.1}mm; break-after: page; page-break-after: always; overflow: hidden; }}
+.page:last-child {{ break-after: auto; page-break-after: auto; }}
+.card {{ width: 100%; height: {card_h:.1}mm; border: 1.3pt solid #000; padding: 2.5mm 3.5mm; overflow: hidden;
+         break-inside: avoid; page-break-inside: avoid; display: flex; flex-direction: column; }}
+.card + .card {{ margin-top: {GAP}mm; }}
+.head {{ display: flex; justify-content: space-between; align-items: baseline; border-bottom: 0.8pt solid #000; margin-bottom: 1.5mm; }}
+.head .run {{ font-size: 12pt; font-weight: bold; }}
+.head .plan {{ font-size: 7.5pt; }}
+.station {{ font-size: 10.5pt; font-weight: bold; white-space: nowrap; }}
+.vessels {{ display: flex; gap: 3mm; }}
+.vessels > div {{ flex: 1; }}
+table {{ border-collapse: collapse; width: 100%; }}
+th, td {{ border: 0.6pt solid #555; padding: 0.6mm 1.2mm; text-align: left; vertical-align: top; }}
+td.n {{ text-align: right; white-space: nowrap; }}
+.pour {{ font-weight: bold; margin: 1.5mm 0 1mm 0; }}
+.forecast {{ margin: 0.5mm 0 1mm 0; }}
+.record td {{ height: 6.5mm; }}
+.cautions {{ margin-top: auto; border: 1pt solid #000; padding: 1mm 2mm; font-size: 7pt; }}
+.end {{ font-size: 6pt; text-align: right; color: #444; }}
+"#,
+        size = paper.css()
+    )
+}
+
+fn vessel_table(label: &str, items: &[crate::report::PortionItem], dec: usize) -> Markup {
+    html! {
+        div {
+            table {
+                tr { th colspan="3" { "Vessel " (label) } }
+                @for i in items {
+                    tr { td { (i.stock) } td.n { (format!("{:.dec$} mL", i.ml)) } td { (i.device) } }
+                }
+            }
+        }
+    }
+}
+
+fn cautions(report: &PlanReport) -> Markup {
+    html! {
+        div.cautions {
+            strong { "Cautions: " }
+            "goggles, gloves and lab coat on. Follow the supplier's SDS, local rules and your safety officer. Waste as local rules require. "
+            @if !report.reagents.is_empty() {
+                "Reagents: "
+                (report.reagents.iter().map(|r| if r.ghs.is_empty() { r.name.clone() } else { format!("{} ({})", r.name, r.ghs.join(", ")) }).collect::<Vec<_>>().join("; "))
+                "."
+            }
+        }
+    }
+}
+
+fn forecast_line(run: &RunReport) -> Markup {
+    html! {
+        @if let Some(f) = &run.forecast {
+            @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
+                div.forecast {
+                    "Expected: about " strong { (secs(t)) } " at " (format!("{:.0}", f.temperature_c)) " °C ("
+                    (secs(fast)) " to " (secs(slow)) " between " (format!("{:.0}", f.band_c[1])) " and " (format!("{:.0}", f.band_c[0]))
+                    " °C). A forecast, not a guarantee."
+                }
+            }
+        }
+    }
+}
+
+fn run_card(
+    report: &PlanReport,
+    run: &RunReport,
+    n: usize,
+    card: usize,
+    cards: usize,
+    dec: usize,
+) -> Markup {
+    let pour = &run.portions.pour;
+    let (first, second) = pour.split_once(" into ").unwrap_or(("B", "A"));
+    html! {
+        div.card {
+            div.head {
+                div {
+                    div.plan { (report.title) " · card " (card) " of " (cards) }
+                    div.run { "Run " (n) " of " (report.runs.len()) ": " (run.name) }
+                }
+                div.station { "Station ______" }
+            }
+            div.vessels { (vessel_table("A", &run.portions.a, dec)) (vessel_table("B", &run.portions.b, dec)) }
+            div.pour { "At t = 0 pour vessel " (first) " into vessel " (second) ", swirl, and start the timer at the moment of mixing." }
+            (forecast_line(run))
+            table.record {
+                tr { th { "trial" } th { "time to colour (s)" } th { "temperature (°C)" } th { "initials" } }
+                @for t in 1..=report.replicates { tr { td { (t) } td {} td {} td {} } }
+            }
+            (cautions(report))
+            div.end { "end of card " (card) }
+        }
+    }
+}
+
+fn station_card(
+    report: &PlanReport,
+    station: u32,
+    runs: &[(usize, &RunReport)],
+    card: usize,
+    cards: usize,
+    dec: usize,
+) -> Markup {
+    let items = |list: &[crate::report::PortionItem]| -> Markup {
+        html! { @for i in list { div { (i.stock) " " (format!("{:.dec$} mL", i.ml)) " (" (i.device) ")" } } }
+    };
+    html! {
+        div.card {
+            div.head {
+                div {
+                    div.plan { (report.title) " · card " (card) " of " (cards) }
+                    div.run { "Bench card" }
+                }
+                div.station { "Station " (station) " of " (report.stations) }
+            }
+            table {
+                tr { th { "run" } th { "vessel A" } th { "vessel B" } th { "expected" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } } th { "°C" } }
+                @for (n, run) in runs {
+                    tr.record {
+                        td { (n) ". " (run.name) }
+                        td { (items(&run.portions.a)) }
+                        td { (items(&run.portions.b)) }
+                        td.n {
+                            @if let Some(f) = &run.forecast {
+                                @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
+                                    (format!("{t:.0} s")) br; (format!("({fast:.0}–{slow:.0})"))
+                                } @else { "-" }
+                            } @else { "-" }
+                        }
+                        @for _ in 1..=report.replicates { td {} }
+                        td {}
+                    }
+                }
+            }
+            div.pour { "For every run: at t = 0 pour vessel " (report.runs[0].portions.pour.replace(" into ", " into vessel ")) ", swirl, and start the timer at the moment of mixing." }
+            @if let (Some(s), Some(f)) = (&report.forecast_settings, runs.first().and_then(|(_, r)| r.forecast.as_ref())) {
+                div.forecast {
+                    "Expected: forecast time to colour at " (format!("{:.0}", s.temperature_c)) " °C, in brackets the range between "
+                    (format!("{:.0}", f.band_c[1])) " and " (format!("{:.0}", f.band_c[0])) " °C. Forecasts from a prior rate law, not guarantees."
+                }
+            }
+            (cautions(report))
+            div.end { "end of card " (card) }
+        }
+    }
+}
+
+/// The bench cards as one printable HTML document.
+pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
+    let dec = super::ml_decimals(report);
+    let numbered: Vec<(usize, &RunReport)> = report
+        .runs
+        .iter()
+        .enumerate()
+        .map(|(i, r)| (i + 1, r))
+        .collect();
+    let mut cards: Vec<Markup> = Vec::new();
+    match per {
+        Per::Run => {
+            let total = numbered.len();
+            for (k, (n, run)) in numbered.iter().enumerate() {
+                cards.push(run_card(report, run, *n, k + 1, total, dec));
+            }
+        }
+        Per::Station => {
+            let chunks: Vec<&[(usize, &RunReport)]> =
+                numbered.chunks(RUNS_PER_STATION_CARD).collect();
+            let total = report.stations as usize * chunks.len();
+            let mut k = 0;
+            for station in 1..=report.stations {
+                for chunk in &chunks {
+                    k += 1;
+                    cards.push(station_card(report, station, chunk, k, total, dec));
+                }
+            }
+        }
+    }
+    let per_page = per_page(report, per);
+    let doc = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                title { "Bench cards: " (report.title) }
+                style { (PreEscaped(style(paper, per_page))) }
+            }
+            body {
+                @for page in cards.chunks(per_page) {
+                    div.page { @for c in page { (c) } }
+                }
+            }
+        }
+    };
+    let mut out = doc.into_string().into_bytes();
+    out.push(b'\n');
+    out
+}

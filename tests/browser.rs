@@ -1,0 +1,179 @@
+//! Bench cards checked in a real browser: printed to PDF by headless Chromium on A4 and Letter,
+//! then read back with poppler (pdfinfo, pdftotext). Skipped when Chromium or poppler is
+//! missing, unless CLOCKPREP_REQUIRE_BROWSER is set (CI sets it), which turns a missing tool
+//! into a failure.
+
+use assert_cmd::Command;
+use std::path::{Path, PathBuf};
+use std::process;
+
+const DEMO: &str = "plans/maple-hollow-bromate.toml";
+
+fn tools() -> Option<PathBuf> {
+    let browser = clockprep::pdf::find_browser();
+    let poppler = process::Command::new("pdfinfo").arg("-v").output().is_ok();
+    match (browser, poppler) {
+        (Some(b), true) => Some(b),
+        _ if std::env::var_os("CLOCKPREP_REQUIRE_BROWSER").is_some() => {
+            panic!("CLOCKPREP_REQUIRE_BROWSER is set but chromium or poppler-utils is missing")
+        }
+        _ => {
+            eprintln!("skipping: chromium or poppler-utils is not installed");
+            None
+        }
+    }
+}
+
+fn pdf_pages(pdf: &Path) -> usize {
+    let out = process::Command::new("pdfinfo").arg(pdf).output().unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    text.lines()
+        .find_map(|l| l.strip_prefix("Pages:"))
+        .and_then(|n| n.trim().parse().ok())
+        .expect("pdfinfo reports the page count")
+}
+
+fn page_text(pdf: &Path, page: usize) -> String {
+    let out = process::Command::new("pdftotext")
+        .args(["-f", &page.to_string(), "-l", &page.to_string(), "-layout"])
+        .arg(pdf)
+        .arg("-")
+        .output()
+        .unwrap();
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+/// Load the HTML in the browser with a script that compares every card's content height with
+/// its box, and read the verdict back from the dumped DOM.
+fn overflowing_cards(html: &Path, browser: &Path) -> String {
+    let text = std::fs::read_to_string(html).unwrap();
+    let probe = r#"<script>
+var bad = [];
+document.querySelectorAll('.card').forEach(function (c, i) {
+  if (c.scrollHeight > c.clientHeight + 1 || c.scrollWidth > c.clientWidth + 1) bad.push(i + 1);
+});
+var n = document.createElement('div'); n.id = 'verdict';
+n.textContent = 'cards=' + document.querySelectorAll('.card').length + ' overflow=' + bad.join(',');
+document.body.appendChild(n);
+</script></body>"#;
+    let dir = tempfile::tempdir().unwrap();
+    let probed = dir.path().join("probe.html");
+    std::fs::write(&probed, text.replace("</body>", probe)).unwrap();
+    let out = process::Command::new(browser)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--no-first-run",
+        ])
+        .arg(format!(
+            "--user-data-dir={}",
+            dir.path().join("profile").display()
+        ))
+        .arg("--dump-dom")
+        .arg(&probed)
+        .output()
+        .unwrap();
+    let dom = String::from_utf8_lossy(&out.stdout);
+    let marker = "<div id=\"verdict\">";
+    let at = dom.find(marker).expect("the probe ran") + marker.len();
+    dom[at..].split('<').next().unwrap().to_string()
+}
+
+fn print(spec: &Path, per: &str, paper: &str, dir: &Path) -> (PathBuf, PathBuf) {
+    let html = dir.join(format!("cards-{per}-{paper}.html"));
+    let pdf = dir.join(format!("cards-{per}-{paper}.pdf"));
+    Command::cargo_bin("clockprep")
+        .unwrap()
+        .arg("cards")
+        .arg(spec)
+        .args(["--per", per, "--paper", paper, "-o"])
+        .arg(&html)
+        .arg("--pdf")
+        .arg(&pdf)
+        .assert()
+        .code(0);
+    (html, pdf)
+}
+
+#[test]
+fn cards_print_on_both_papers_without_splitting_or_overflowing() {
+    let Some(browser) = tools() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    let report = clockprep::plan(clockprep::error::SpecSource::new(
+        DEMO,
+        std::fs::read_to_string(DEMO).unwrap(),
+    ))
+    .unwrap();
+    for paper in ["a4", "letter"] {
+        for (per, layout) in [
+            ("run", clockprep::export::cards::Per::Run),
+            ("station", clockprep::export::cards::Per::Station),
+        ] {
+            let (html, pdf) = print(Path::new(DEMO), per, paper, dir.path());
+            let what = format!("{per} cards on {paper}");
+            // The page count is what the layout predicts (5 runs: 3 pages of two run cards;
+            // 8 stations: 8 one-page station cards).
+            let expected = clockprep::export::cards::pages(&report, layout);
+            assert_eq!(pdf_pages(&pdf), expected, "{what}");
+            let info = String::from_utf8_lossy(
+                &process::Command::new("pdfinfo")
+                    .arg(&pdf)
+                    .output()
+                    .unwrap()
+                    .stdout,
+            )
+            .into_owned();
+            assert!(
+                info.contains(if paper == "a4" { "(A4)" } else { "(letter)" }),
+                "{what}: {info}"
+            );
+            // No card is cut by a page break: its first and last lines are on the same page.
+            let cards = if per == "run" {
+                report.runs.len()
+            } else {
+                report.stations as usize
+            };
+            let mut found = 0;
+            for page in 1..=expected {
+                let text = page_text(&pdf, page);
+                for k in 1..=cards {
+                    let head = text.contains(&format!("card {k} of {cards}"));
+                    let end = text.contains(&format!("end of card {k}"));
+                    assert_eq!(head, end, "{what}: card {k} split across page {page}");
+                    if head {
+                        found += 1;
+                    }
+                }
+                assert!(
+                    text.contains("safety officer"),
+                    "{what}: page {page} has no cautions"
+                );
+            }
+            assert_eq!(found, cards, "{what}: every card is printed once");
+            // No card's content overflows its box.
+            let verdict = overflowing_cards(&html, &browser);
+            assert_eq!(verdict, format!("cards={cards} overflow="), "{what}");
+        }
+    }
+}
+
+#[test]
+fn names_print_as_text() {
+    let Some(_) = tools() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("escape.toml");
+    let text = std::fs::read_to_string(DEMO).unwrap().replace(
+        "name = \"reference\"",
+        "name = \"<script>alert(1)</script>\"",
+    );
+    std::fs::write(&spec, text).unwrap();
+    let (html, pdf) = print(&spec, "run", "a4", dir.path());
+    let html = std::fs::read_to_string(html).unwrap();
+    assert!(html.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
+    assert!(!html.contains("<script>alert"));
+    assert!(page_text(&pdf, 1).contains("<script>alert(1)</script>"));
+}
