@@ -24,6 +24,7 @@ pub mod solve;
 pub mod spec;
 pub mod species;
 pub mod totals;
+pub mod uncertainty;
 pub mod units;
 
 use error::{Result, SpecSource};
@@ -41,12 +42,18 @@ pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
         .map(|r| r.concentrations.clone())
         .collect();
     let forecast = forecast::forecast(&spec, &initial);
+    let uncertainty: Vec<_> = solution
+        .runs
+        .iter()
+        .map(|r| uncertainty::propagate(&spec, r))
+        .collect();
     Ok(report::build(
         &spec,
         &solution,
         &mixing,
         &totals,
         forecast.as_ref(),
+        &uncertainty,
     ))
 }
 

@@ -8,6 +8,7 @@ use crate::safety;
 use crate::solve::{Flag, Solution};
 use crate::spec::Spec;
 use crate::totals::Totals;
+use crate::uncertainty::RunUncertainty;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
@@ -83,6 +84,9 @@ pub struct RunReport {
     pub concentrations: Ordered,
     /// (achieved − target)/target for each target (and ionic strength when held).
     pub deviation: Ordered,
+    /// Relative standard uncertainty (k = 1) of each final concentration from the glassware
+    /// tolerances and the stocks' concentration uncertainty.
+    pub uncertainty: Ordered,
     #[serde(rename = "ionic_strength_M")]
     pub ionic_strength: f64,
     pub portions: Portions,
@@ -119,6 +123,8 @@ pub struct ForecastReport {
     /// The true initial rate r₀ of the prior rate law.
     #[serde(rename = "initial_rate_M_per_s")]
     pub initial_rate: Option<f64>,
+    /// Relative standard uncertainty (k = 1) of the time from glassware and stocks, percent.
+    pub volumetric_uncertainty_pct: Option<f64>,
     /// Largest fraction of a reactant used up at the clock, and which one.
     pub max_conversion: Option<f64>,
     pub max_conversion_species: Option<String>,
@@ -324,6 +330,7 @@ fn forecast_report(f: &RunForecast) -> ForecastReport {
             .map(|t| sig10((t.initial_rate - t.clock) / t.clock * 100.0)),
         rate: f.implied_rate.map(sig10),
         initial_rate: f.timing.map(|t| sig10(t.rate0)),
+        volumetric_uncertainty_pct: None,
         max_conversion: max.map(|m| sig10(m.1)),
         max_conversion_species: max.map(|m| m.0.to_string()),
         warnings: f.warnings.clone(),
@@ -420,6 +427,7 @@ pub fn build(
     mixing: &Mixing,
     totals: &Totals,
     forecast: Option<&Forecast>,
+    uncertainty: &[RunUncertainty],
 ) -> PlanReport {
     let name =
         |s: Option<usize>| s.map_or_else(|| "water".to_string(), |s| spec.stocks[s].name.clone());
@@ -500,6 +508,7 @@ pub fn build(
                         .collect(),
                 ),
                 ionic_strength: sig10(r.ionic_strength),
+                uncertainty: Ordered::default(),
                 portions: Portions {
                     a: portion_items(&portions.a),
                     b: portion_items(&portions.b),
@@ -516,6 +525,17 @@ pub fn build(
     if let Some(f) = forecast {
         for (r, rf) in runs.iter_mut().zip(&f.runs) {
             r.forecast = Some(forecast_report(rf));
+        }
+    }
+    for (r, u) in runs.iter_mut().zip(uncertainty) {
+        r.uncertainty = Ordered(
+            u.species
+                .iter()
+                .map(|(s, v)| (s.clone(), sig10(*v)))
+                .collect(),
+        );
+        if let (Some(f), Some(t)) = (r.forecast.as_mut(), u.time) {
+            f.volumetric_uncertainty_pct = Some(sig10(t * 100.0));
         }
     }
 

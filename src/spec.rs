@@ -76,6 +76,7 @@ struct RawPlan {
     tolerance: Option<Q>,
     flasks: Option<Vec<Q>>,
     temperature_band: Option<Q>,
+    stock_uncertainty: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -400,6 +401,8 @@ pub struct Spec {
     pub tolerance: f64,
     /// volumetric flask sizes (L), ascending
     pub flasks: Vec<f64>,
+    /// relative standard uncertainty of every stock's concentration
+    pub stock_uncertainty: f64,
     pub timing: Timing,
     pub stocks: Vec<Stock>,
     pub devices: Vec<Device>,
@@ -669,6 +672,24 @@ impl Checker<'_> {
                 out.sort_by(f64::total_cmp);
                 out.dedup();
                 out
+            }
+        };
+
+        // Weighing and making up to the mark: about 0.3 % (common practice for class A flasks
+        // and an analytical balance).
+        let stock_uncertainty = match &plan.stock_uncertainty {
+            None => 0.003,
+            Some(q) => {
+                let v = self.qty(q, Kind::Fraction, "stock_uncertainty")?;
+                if !(0.0..=0.2).contains(&v) {
+                    return Err(self.err(
+                        inner(q.span(), &self.src.text),
+                        "stock_uncertainty must be from 0 % to 20 %",
+                        "out of range",
+                        "e.g. stock_uncertainty = \"0.3 %\"",
+                    ));
+                }
+                v
             }
         };
 
@@ -1097,6 +1118,7 @@ impl Checker<'_> {
             temperature,
             tolerance,
             flasks,
+            stock_uncertainty,
             timing: Timing {
                 species: timing_species,
                 concentration: timing_conc,

@@ -4,7 +4,8 @@ use crate::report::{ForecastReport, ForecastSheet, PlanReport, StockSheet};
 /// Long-format CSV for spreadsheets: one row per value.
 ///
 /// Columns: `run, row, name, vessel, mL, device, target_M, achieved_M, deviation, value`.
-/// `row` is `volume`, `species`, `ionic_strength`, `forecast` (name = quantity with its unit,
+/// For `species` rows `value` is the relative standard uncertainty (k = 1) of the final
+/// concentration. `row` is `volume`, `species`, `ionic_strength`, `forecast` (name = quantity with its unit,
 /// number in `value`), `warning` (name = code, text in `value`) or `stock_total`. Cells that do
 /// not apply are empty.
 pub struct Csv;
@@ -69,6 +70,12 @@ impl Rows {
         self.value(run, "forecast", "initial_rate_s", opt(f.initial_rate_s));
         self.value(run, "forecast", "rate_M_per_s", opt(f.rate));
         self.value(run, "forecast", "max_conversion", opt(f.max_conversion));
+        self.value(
+            run,
+            "forecast",
+            "volumetric_uncertainty_pct",
+            opt(f.volumetric_uncertainty_pct),
+        );
         for w in &f.warnings {
             self.value(run, "warning", w.code, w.message.clone());
         }

@@ -162,13 +162,14 @@ impl Exporter for Html {
                     }
                     p { "At t = 0 pour vessel " (run.portions.pour.replace(" into ", " into vessel ")) " and start the timer at the moment of mixing." }
                     table {
-                        tr { th { "species" } th.n { "target (mM)" } th.n { "final (mM)" } th.n { "deviation (%)" } }
+                        tr { th { "species" } th.n { "target (mM)" } th.n { "final (mM)" } th.n { "deviation (%)" } th.n { "u (%), k = 1" } }
                         @for (sp, c) in &run.concentrations.0 {
                             tr {
                                 td { (sp) }
                                 td.n { (run.targets.get(sp).map(mm).unwrap_or_else(|| "-".into())) }
                                 td.n { (mm(*c)) }
                                 td.n { (run.deviation.get(sp).map(|d| format!("{:+.2}", d * 100.0)).unwrap_or_else(|| "-".into())) }
+                                td.n { (run.uncertainty.get(sp).map(|u| format!("{:.2}", u * 100.0)).unwrap_or_else(|| "-".into())) }
                             }
                         }
                     }

@@ -226,7 +226,7 @@ impl Exporter for Markdown {
                 dec, if first == "A" { p.a_ml } else { p.b_ml }, dec, if first == "A" { p.b_ml } else { p.a_ml });
             let _ = writeln!(
                 out,
-                "| species | target (mM) | final (mM) | deviation (%) |\n|---|---:|---:|---:|"
+                "| species | target (mM) | final (mM) | deviation (%) | u (%), k = 1 |\n|---|---:|---:|---:|---:|"
             );
             for (sp, c) in &r.concentrations.0 {
                 let target = r.targets.get(sp).map(mm).unwrap_or_else(|| "-".into());
@@ -235,7 +235,12 @@ impl Exporter for Markdown {
                     .get(sp)
                     .map(|d| format!("{:+.2}", d * 100.0))
                     .unwrap_or_else(|| "-".into());
-                let _ = writeln!(out, "| {} | {target} | {} | {dev} |", esc(sp), mm(*c));
+                let u = r
+                    .uncertainty
+                    .get(sp)
+                    .map(|u| format!("{:.2}", u * 100.0))
+                    .unwrap_or_else(|| "-".into());
+                let _ = writeln!(out, "| {} | {target} | {} | {dev} | {u} |", esc(sp), mm(*c));
             }
             let _ = writeln!(out, "\nIonic strength: {} mM.\n", mm(r.ionic_strength));
             if let Some(f) = &r.forecast {

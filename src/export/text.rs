@@ -125,15 +125,35 @@ fn run_block(out: &mut String, r: &RunReport, n: usize, of: usize, dec: usize) {
                     .get(sp)
                     .map(|d| format!("{:+.2}", d * 100.0))
                     .unwrap_or_else(|| "-".into()),
+                r.uncertainty
+                    .get(sp)
+                    .map(|u| format!("{:.2}", u * 100.0))
+                    .unwrap_or_else(|| "-".into()),
             ]
         })
         .collect();
     out.push_str(&table(
         2,
-        &["species", "target (mM)", "final (mM)", "deviation (%)"],
-        &[Align::Left, Align::Right, Align::Right, Align::Right],
+        &[
+            "species",
+            "target (mM)",
+            "final (mM)",
+            "deviation (%)",
+            "u (%)",
+        ],
+        &[
+            Align::Left,
+            Align::Right,
+            Align::Right,
+            Align::Right,
+            Align::Right,
+        ],
         &rows,
     ));
+    let _ = writeln!(
+        out,
+        "  u: standard uncertainty (k = 1) from glassware tolerances and stock concentrations."
+    );
     match (
         r.targets.get("ionic strength"),
         r.deviation.get("ionic strength"),
@@ -207,6 +227,12 @@ fn forecast_lines(out: &mut String, f: &ForecastReport) {
                     out,
                     "  Largest conversion at the clock: {s} {:.1} %.",
                     c * 100.0
+                );
+            }
+            if let Some(u) = f.volumetric_uncertainty_pct {
+                let _ = writeln!(
+                    out,
+                    "  Glassware and stocks alone make the time uncertain by {u:.2} % (k = 1)."
                 );
             }
         }
