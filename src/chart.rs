@@ -200,6 +200,7 @@ mod tests {
             initial_rate_difference_pct: Some(0.0),
             rate: Some(1e-6),
             initial_rate: Some(1e-6),
+            volumetric_uncertainty_pct: None,
             max_conversion: Some(0.01),
             max_conversion_species: Some("H+".into()),
             warnings: if flagged {
