@@ -75,6 +75,23 @@ pub enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Fit the prior rate law to measured times (pilot or class); writes the updated prior as
+    /// a TOML fragment (never edits the spec).
+    Fit {
+        /// The spec (TOML) with the prior in [reaction] and the timed runs.
+        spec: PathBuf,
+        /// CSV with a header and columns run, time and optionally temperature.
+        times: PathBuf,
+        /// Hold orders fixed: "1,1,2" in the rate law's order, or "I-=1,H+=2".
+        #[arg(long)]
+        orders: Option<String>,
+        /// Write to this file instead of stdout (atomically; never over the spec).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Replace the output file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
     /// Forecast the time to colour of every run from its target concentrations and the prior
     /// rate law in [reaction] (no stocks or glassware needed).
     Forecast {
@@ -215,6 +232,21 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         } => {
             let svg = crate::chart(read_spec(&spec)?)?;
             emit(svg.as_bytes(), output.as_deref(), force, &spec)?;
+            Ok(EXIT_OK)
+        }
+        Command::Fit {
+            spec,
+            times,
+            orders,
+            output,
+            force,
+        } => {
+            let times_source = read_spec(&times)?;
+            let fragment = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
+            if output.as_deref() == Some(times.as_path()) {
+                return Err(Error::OutputIsSpec { path: times });
+            }
+            emit(fragment.as_bytes(), output.as_deref(), force, &spec)?;
             Ok(EXIT_OK)
         }
         Command::Forecast { spec, out } => {

@@ -11,6 +11,7 @@ pub mod cli;
 pub mod device;
 pub mod error;
 pub mod export;
+pub mod fit;
 pub mod forecast;
 pub mod kinetics;
 pub mod mixing;
@@ -134,4 +135,54 @@ fn no_reaction(spec: &str) -> error::Error {
         "",
         "add [reaction] with a preset, e.g. preset = \"bromate-iodide\"",
     )
+}
+
+/// One run's initial concentrations: (species, mol/L).
+pub type Concentrations = Vec<(String, f64)>;
+
+/// The spec and the initial concentrations of its runs as the forecast sees them: the
+/// delivered concentrations when the spec lists stocks, else the targets.
+pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Concentrations>)> {
+    let light = spec::load_for(source.clone(), spec::Purpose::Forecast)?;
+    if light.stocks.is_empty() {
+        let initial = light
+            .runs
+            .iter()
+            .map(|r| r.target_concentrations())
+            .collect();
+        return Ok((light, initial));
+    }
+    let spec = spec::load(source)?;
+    let solution = solve::solve(&spec)?;
+    let initial = solution
+        .runs
+        .iter()
+        .map(|r| r.concentrations.clone())
+        .collect();
+    Ok((spec, initial))
+}
+
+/// Fit the prior to measured times; returns the updated prior as a TOML fragment.
+pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<String> {
+    let (spec, initial) = initial_concentrations(source)?;
+    let species: Vec<String> = spec
+        .reaction
+        .as_ref()
+        .and_then(|r| r.terms.first())
+        .map(|t| t.orders.iter().map(|(s, _)| s.clone()).collect())
+        .unwrap_or_default();
+    let fixed = match orders {
+        None => Vec::new(),
+        Some(text) => fit::parse_orders(text, &species).map_err(|e| {
+            SpecSource::new("--orders", text).error(
+                0..text.len(),
+                e,
+                "here",
+                "e.g. --orders 1,1,2 or --orders I-=1,H+=2",
+            )
+        })?,
+    };
+    let trials = fit::read_times(&times, &spec)?;
+    let result = fit::fit(&spec, &initial, &trials, &fit::Options { fixed })?;
+    Ok(fit::toml_fragment(&spec, &result, &times.name))
 }

@@ -518,3 +518,116 @@ fn pdf_without_a_browser_says_how_to_install_one_and_keeps_the_html() {
         .contains("Bench cards"));
     assert!(!pdf.exists());
 }
+
+#[test]
+fn fit_writes_a_prior_that_loads_again() {
+    let out = clockprep()
+        .args([
+            "fit",
+            "plans/maple-hollow-bromate.toml",
+            "plans/maple-hollow-pilot.csv",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let fragment = String::from_utf8(out.stdout).unwrap();
+    assert!(fragment.contains("consistent with 2"));
+    // The fragment replaces the spec's [reaction] and the plan still runs, with the new prior.
+    let spec = DEMO.replace("[reaction]                    # the prior rate law used for the forecast\npreset = \"bromate-iodide\"     # calibrate it with a pilot run\n", "");
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("calibrated.toml");
+    std::fs::write(&path, format!("{spec}\n{fragment}")).unwrap();
+    clockprep()
+        .arg("plan")
+        .arg(&path)
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("fit to 10 trials"));
+    // Fixing the orders fits k alone.
+    clockprep()
+        .args([
+            "fit",
+            "plans/maple-hollow-bromate.toml",
+            "plans/maple-hollow-pilot.csv",
+            "--orders",
+            "1,1,2",
+        ])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("order in H+: 2 (fixed)"));
+}
+
+#[test]
+fn fit_refuses_bad_times_with_a_location() {
+    let pilot = include_str!("../plans/maple-hollow-pilot.csv");
+    let cases = [
+        (
+            "a run not in the spec",
+            pilot.replacen("iodide x2,", "iodide x3,", 1),
+            "run 'iodide x3' is not in the spec",
+        ),
+        (
+            "a non-positive time",
+            pilot.replacen("131.7", "-4", 1),
+            "must be positive",
+        ),
+        (
+            "a time that is not one",
+            pilot.replacen("131.7", "soon", 1),
+            "'soon' is not a time",
+        ),
+    ];
+    for (what, text, expect) in cases {
+        let dir = tempfile::tempdir().unwrap();
+        let times = dir.path().join("times.csv");
+        std::fs::write(&times, text).unwrap();
+        let out = clockprep()
+            .args(["fit", "plans/maple-hollow-bromate.toml"])
+            .arg(&times)
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{what}: {stderr}");
+        assert!(stderr.contains(expect), "{what}: {stderr}");
+        assert!(
+            located(&stderr, &times.display().to_string()),
+            "{what}: {stderr}"
+        );
+    }
+    // Only the reference and the iodide runs timed: bromate and acid never vary.
+    let dir = tempfile::tempdir().unwrap();
+    let times = dir.path().join("times.csv");
+    let few: String = pilot
+        .lines()
+        .filter(|l| l.starts_with("run") || l.starts_with("reference") || l.starts_with("iodide"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    std::fs::write(&times, few).unwrap();
+    clockprep()
+        .args(["fit", "plans/maple-hollow-bromate.toml"])
+        .arg(&times)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("never vary BrO3-"));
+    // The fit never writes over the spec.
+    clockprep()
+        .args([
+            "fit",
+            "plans/maple-hollow-bromate.toml",
+            "plans/maple-hollow-pilot.csv",
+            "--force",
+            "-o",
+            "plans/maple-hollow-bromate.toml",
+        ])
+        .assert()
+        .code(2);
+    assert_eq!(
+        std::fs::read_to_string("plans/maple-hollow-bromate.toml").unwrap(),
+        DEMO
+    );
+}

@@ -1,0 +1,139 @@
+//! The fit against synthetic times made by the forecast model itself, and its least squares
+//! against an SVD solve from nalgebra.
+
+use clockprep::error::SpecSource;
+use clockprep::fit::{fit, least_squares, Options, Trial};
+use clockprep::kinetics::RunKinetics;
+use nalgebra::{DMatrix, DVector};
+
+const DEMO: &str = "plans/maple-hollow-bromate.toml";
+
+/// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014) with Box–Muller normals: seeded and small.
+struct Rng(u64);
+impl Rng {
+    fn next(&mut self) -> f64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    }
+    fn normal(&mut self) -> f64 {
+        let (u1, u2) = (self.next().max(1e-300), self.next());
+        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
+    }
+}
+
+/// Times the forecast gives with k scaled by `k_factor`, each run timed `reps` times with
+/// relative noise `sigma`.
+fn synthetic(
+    spec: &clockprep::spec::Spec,
+    initial: &[Vec<(String, f64)>],
+    k_factor: f64,
+    reps: usize,
+    sigma: f64,
+    rng: &mut Rng,
+) -> Vec<Trial> {
+    let mut truth = spec.reaction.clone().unwrap();
+    truth.terms[0].k_ref *= k_factor;
+    let t = spec.forecast.as_ref().unwrap().temperature;
+    let mut trials = Vec::new();
+    for (run, c0) in initial.iter().enumerate() {
+        let time = RunKinetics::new(&truth, c0, spec.timing.concentration)
+            .unwrap()
+            .at(t)
+            .to_colour();
+        for _ in 0..reps {
+            trials.push(Trial {
+                run,
+                time: time * (sigma * rng.normal()).exp(),
+                temperature: None,
+                line: 0,
+            });
+        }
+    }
+    trials
+}
+
+fn demo() -> (clockprep::spec::Spec, Vec<Vec<(String, f64)>>) {
+    clockprep::initial_concentrations(SpecSource::new(
+        DEMO,
+        std::fs::read_to_string(DEMO).unwrap(),
+    ))
+    .unwrap()
+}
+
+#[test]
+fn exact_times_give_back_the_model() {
+    // forecast → fit → forecast: noise-free times from k × 0.8 return k × 0.8 and the orders.
+    let (spec, initial) = demo();
+    let trials = synthetic(&spec, &initial, 0.8, 2, 0.0, &mut Rng(1));
+    let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
+    let prior = &spec.reaction.as_ref().unwrap().terms[0];
+    let t = spec.forecast.as_ref().unwrap().temperature;
+    approx::assert_relative_eq!(f.k.value, 0.8 * prior.k_at(t), max_relative = 1e-7);
+    for (o, (_, n)) in f.orders.iter().zip(&prior.orders) {
+        approx::assert_relative_eq!(o.estimate.value, *n, epsilon = 1e-7);
+        assert!(o.consistent);
+    }
+}
+
+#[test]
+fn intervals_cover_the_truth_in_repeated_pilots() {
+    // 200 seeded pilots of 3 replicates per run with 3 % timing noise: each 95 % interval must
+    // contain the true value in at least 90 % of them.
+    let (spec, initial) = demo();
+    let prior = spec.reaction.as_ref().unwrap().terms[0].clone();
+    let t = spec.forecast.as_ref().unwrap().temperature;
+    let true_k = 1.3 * prior.k_at(t);
+    let mut covered = vec![0usize; 1 + prior.orders.len()];
+    let seeds = 200;
+    for seed in 0..seeds {
+        let trials = synthetic(&spec, &initial, 1.3, 3, 0.03, &mut Rng(seed));
+        let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
+        if (f.k.low..=f.k.high).contains(&true_k) {
+            covered[0] += 1;
+        }
+        for (j, (o, (_, n))) in f.orders.iter().zip(&prior.orders).enumerate() {
+            if (o.estimate.low..=o.estimate.high).contains(n) {
+                covered[j + 1] += 1;
+            }
+        }
+    }
+    for (j, c) in covered.iter().enumerate() {
+        assert!(
+            *c as f64 >= 0.9 * seeds as f64,
+            "parameter {j}: covered in {c} of {seeds}"
+        );
+    }
+}
+
+#[test]
+fn least_squares_matches_an_svd_solve() {
+    let mut rng = Rng(42);
+    for _ in 0..20 {
+        let (n, p) = (12, 4);
+        let x: Vec<Vec<f64>> = (0..n)
+            .map(|_| {
+                (0..p)
+                    .map(|j| if j == 0 { 1.0 } else { rng.normal() })
+                    .collect()
+            })
+            .collect();
+        let y: Vec<f64> = (0..n).map(|_| rng.normal()).collect();
+        let ours = least_squares(&x, &y).unwrap();
+        let a = DMatrix::from_fn(n, p, |i, j| x[i][j]);
+        let reference = a
+            .svd(true, true)
+            .solve(&DVector::from_column_slice(&y), 1e-12)
+            .unwrap();
+        for j in 0..p {
+            approx::assert_relative_eq!(
+                ours.beta[j],
+                reference[j],
+                epsilon = 1e-10,
+                max_relative = 1e-9
+            );
+        }
+    }
+}
