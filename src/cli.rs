@@ -92,6 +92,23 @@ pub enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Write the runs of a design scheme ([design] in the spec) as TOML, with the standard
+    /// error each order and ln k can be expected to have.
+    Design {
+        /// The spec (TOML) with [plan], [timing], [design] and optionally [reaction] and stocks.
+        spec: PathBuf,
+        /// Write to this file instead of stdout (atomically; never over the spec).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Replace the output file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Find the one timing-reagent concentration that times every run best.
+    Tune {
+        /// The spec (TOML) with [reaction] and runs.
+        spec: PathBuf,
+    },
     /// Forecast the time to colour of every run from its target concentrations and the prior
     /// rate law in [reaction] (no stocks or glassware needed).
     Forecast {
@@ -248,6 +265,20 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             }
             emit(fragment.as_bytes(), output.as_deref(), force, &spec)?;
             Ok(EXIT_OK)
+        }
+        Command::Design {
+            spec,
+            output,
+            force,
+        } => {
+            let runs = crate::design(read_spec(&spec)?)?;
+            emit(runs.as_bytes(), output.as_deref(), force, &spec)?;
+            Ok(EXIT_OK)
+        }
+        Command::Tune { spec } => {
+            let (text, fits) = crate::tune(read_spec(&spec)?)?;
+            emit(text.as_bytes(), None, false, &spec)?;
+            Ok(if fits { EXIT_OK } else { EXIT_FLAGGED })
         }
         Command::Forecast { spec, out } => {
             let sheet = crate::forecast_only(read_spec(&spec)?)?;

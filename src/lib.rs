@@ -8,6 +8,7 @@
 pub mod chart;
 pub mod chem;
 pub mod cli;
+pub mod design;
 pub mod device;
 pub mod error;
 pub mod export;
@@ -25,6 +26,7 @@ pub mod solve;
 pub mod spec;
 pub mod species;
 pub mod totals;
+pub mod tune;
 pub mod uncertainty;
 pub mod units;
 
@@ -185,4 +187,77 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
     let trials = fit::read_times(&times, &spec)?;
     let result = fit::fit(&spec, &initial, &trials, &fit::Options { fixed })?;
     Ok(fit::toml_fragment(&spec, &result, &times.name))
+}
+
+/// Design a run set from the spec's `[design]`; returns the runs as TOML with the expected
+/// precision as comments.
+pub fn design(source: SpecSource) -> Result<String> {
+    let spec = spec::load_for(source, spec::Purpose::Design)?;
+    let report = design::design(&spec);
+    Ok(design::toml_runs(&spec, &report))
+}
+
+/// Tune the timing-reagent concentration; returns the report as text.
+pub fn tune(source: SpecSource) -> Result<(String, bool)> {
+    use std::fmt::Write;
+    let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let initial: Vec<Concentrations> = spec
+        .runs
+        .iter()
+        .map(|r| r.target_concentrations())
+        .collect();
+    let t = tune::tune(&spec, &initial).map_err(|e| {
+        spec.source
+            .error(0..0, e.0, "", "check [reaction] and the runs")
+    })?;
+    let f = spec
+        .forecast
+        .as_ref()
+        .expect("a forecast spec has settings");
+    let mut out = String::new();
+    let _ = writeln!(out, "Clock tuning: {}", spec.title);
+    let _ = writeln!(out, "Spec: {}", spec.source.name);
+    let _ = writeln!(
+        out,
+        "Best single timing concentration: {} {} (now {}); the conversion limit allows up to {}.",
+        spec.timing.species,
+        units::concentration(t.concentration),
+        units::concentration(spec.timing.concentration),
+        units::concentration(t.limit)
+    );
+    let _ = writeln!(
+        out,
+        "Smallest margin to the {:.0} s to {:.0} s window across {:.1} to {:.1} °C: x{:.2} {}.",
+        f.window.0,
+        f.window.1,
+        f.temperature - f.band - 273.15,
+        f.temperature + f.band - 273.15,
+        t.margin.exp(),
+        if t.margin >= 0.0 {
+            "(inside)"
+        } else {
+            "(outside: see below)"
+        }
+    );
+    let _ = writeln!(
+        out,
+        "\n{:<24} {:>12} {:>12} {:>12}",
+        "run", "warm (s)", "planned (s)", "cool (s)"
+    );
+    for r in &t.runs {
+        let _ = writeln!(
+            out,
+            "{:<24} {:>12.1} {:>12.1} {:>12.1}",
+            r.name, r.fast, r.at, r.slow
+        );
+    }
+    for a in &t.advice {
+        let _ = writeln!(out, "\n{a}");
+    }
+    let _ = writeln!(
+        out,
+        "\nSet [timing] concentration = \"{}\", then run clockprep plan to check that the timing stock volume is deliverable. Predicted times are estimates from a prior, not guarantees.",
+        units::concentration(t.concentration)
+    );
+    Ok((out, t.margin >= 0.0))
 }

@@ -62,6 +62,19 @@ struct RawSpec {
     #[serde(default)]
     run: Vec<Spanned<RawRun>>,
     reaction: Option<Spanned<RawReaction>>,
+    design: Option<Spanned<RawDesign>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDesign {
+    base: Spanned<Entries<Q>>,
+    scheme: Option<Name>,
+    multipliers: Option<Spanned<Vec<Spanned<f64>>>>,
+    levels: Option<Spanned<Entries<Vec<Q>>>>,
+    timing_error: Option<Q>,
+    temperature_spread: Option<Q>,
+    volumetric_error: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -357,6 +370,36 @@ pub const DEFAULT_HANDLING_S: f64 = 180.0;
 pub enum Purpose {
     Plan,
     Forecast,
+    /// Generating runs: `[design]` is needed and `[[run]]` may be absent.
+    Design,
+}
+
+/// How `clockprep design` builds a run set around the base point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Scheme {
+    /// The base run, then each species alone at base × each multiplier.
+    OneAtATime,
+    /// Every combination of each species at base and base × the first multiplier.
+    Factorial,
+    /// The base run, then each species alone at each of its listed levels.
+    Levels,
+}
+
+/// The `[design]` table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Design {
+    /// Species and their base concentrations (mol/L), in the order written.
+    pub base: Vec<(String, f64)>,
+    pub scheme: Scheme,
+    pub multipliers: Vec<f64>,
+    /// Explicit levels (mol/L) per species, for `Scheme::Levels`.
+    pub levels: Vec<(String, Vec<f64>)>,
+    /// Relative timing error of one trial (human reaction).
+    pub timing_error: f64,
+    /// Unrecorded trial-to-trial temperature scatter, K.
+    pub temperature_spread: f64,
+    /// Relative volumetric error of a trial when the spec has no glassware to propagate.
+    pub volumetric_error: f64,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -415,6 +458,8 @@ pub struct Spec {
     pub reaction: Option<crate::kinetics::Reaction>,
     /// Present exactly when `reaction` is.
     pub forecast: Option<ForecastSettings>,
+    /// The `[design]` table, when given.
+    pub design: Option<Design>,
 }
 
 impl Spec {
@@ -1056,7 +1101,14 @@ impl Checker<'_> {
                 span: r.span(),
             });
         }
-        if runs.is_empty() {
+        let design = match &raw.design {
+            Some(d) => Some(self.design(d, &known, check_species, &timing_species)?),
+            None if self.purpose == Purpose::Design => {
+                return Err(self.err(0..0, "clockprep design needs a [design] table", "", "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\""))
+            }
+            None => None,
+        };
+        if runs.is_empty() && self.purpose != Purpose::Design {
             return Err(self.err(
                 0..0,
                 "the spec lists no runs",
@@ -1064,7 +1116,10 @@ impl Checker<'_> {
                 "add a [[run]] with a name and targets for each concentration set",
             ));
         }
-        let first: BTreeSet<&str> = runs[0].targets.iter().map(|t| t.species.as_str()).collect();
+        let first: BTreeSet<&str> = runs
+            .first()
+            .map(|r| r.targets.iter().map(|t| t.species.as_str()).collect())
+            .unwrap_or_default();
         for (r, raw_run) in runs.iter().zip(&raw.run).skip(1) {
             let these: BTreeSet<&str> = r.targets.iter().map(|t| t.species.as_str()).collect();
             if these != first {
@@ -1083,7 +1138,11 @@ impl Checker<'_> {
             if check_species {
                 known.contains(sp)
             } else {
-                runs[0].targets.iter().any(|t| t.species == sp)
+                runs.first()
+                    .is_some_and(|r| r.targets.iter().any(|t| t.species == sp))
+                    || design
+                        .as_ref()
+                        .is_some_and(|d| d.base.iter().any(|(s, _)| s == sp))
             }
         };
         let reaction = match &raw.reaction {
@@ -1134,6 +1193,153 @@ impl Checker<'_> {
             runs,
             reaction,
             forecast,
+            design,
+        })
+    }
+
+    fn design(
+        &self,
+        d: &Spanned<RawDesign>,
+        known: &BTreeSet<&str>,
+        check_species: bool,
+        timing: &str,
+    ) -> Result<Design> {
+        let r = d.get_ref();
+        let mut base = Vec::new();
+        for (k, q) in &r.base.get_ref().0 {
+            let sp = self.species(k)?;
+            if check_species && !known.contains(sp.as_str()) {
+                return Err(self.err(
+                    inner(k.span(), &self.src.text),
+                    format!("no stock contains {sp}"),
+                    "unknown species",
+                    "design with species the stocks hold",
+                ));
+            }
+            if sp == timing {
+                return Err(self.err(
+                    inner(k.span(), &self.src.text),
+                    format!("{sp} is the timing species; it stays fixed in every run"),
+                    "fixed",
+                    "leave it out of the base",
+                ));
+            }
+            base.push((
+                sp.clone(),
+                self.positive(q, Kind::Concentration, &format!("base {sp}"))?,
+            ));
+        }
+        if base.is_empty() {
+            return Err(self.err(
+                r.base.span(),
+                "the design's base is empty",
+                "empty",
+                "e.g. base = { \"I-\" = \"2.00 mM\", \"BrO3-\" = \"8.00 mM\" }",
+            ));
+        }
+        let scheme = match r
+            .scheme
+            .as_ref()
+            .map(|s| s.get_ref().trim().to_ascii_lowercase())
+        {
+            None => Scheme::OneAtATime,
+            Some(s) if s == "one-at-a-time" || s == "ofat" => Scheme::OneAtATime,
+            Some(s) if s == "factorial" => Scheme::Factorial,
+            Some(s) if s == "levels" => Scheme::Levels,
+            Some(other) => {
+                let n = r.scheme.as_ref().expect("scheme");
+                return Err(self.err(
+                    inner(n.span(), &self.src.text),
+                    format!("unknown scheme '{other}'"),
+                    "here",
+                    "use \"one-at-a-time\", \"factorial\" or \"levels\"",
+                ));
+            }
+        };
+        let multipliers = match &r.multipliers {
+            None => vec![2.0],
+            Some(m) => {
+                let v: Vec<f64> = m.get_ref().iter().map(|x| *x.get_ref()).collect();
+                if v.is_empty()
+                    || v.iter()
+                        .any(|x| !(x.is_finite() && *x > 0.0 && (*x - 1.0).abs() > 1e-9))
+                {
+                    return Err(self.err(
+                        m.span(),
+                        "multipliers must be positive numbers other than 1",
+                        "here",
+                        "e.g. multipliers = [2.0] or [0.5, 2.0]",
+                    ));
+                }
+                v
+            }
+        };
+        let mut levels = Vec::new();
+        if let Some(l) = &r.levels {
+            for (k, qs) in &l.get_ref().0 {
+                let sp = self.species(k)?;
+                if !base.iter().any(|(b, _)| *b == sp) {
+                    return Err(self.err(
+                        inner(k.span(), &self.src.text),
+                        format!("{sp} has levels but no base value"),
+                        "not in the base",
+                        "add it to base",
+                    ));
+                }
+                let mut vals = Vec::new();
+                for q in qs {
+                    vals.push(self.positive(q, Kind::Concentration, &format!("levels {sp}"))?);
+                }
+                levels.push((sp, vals));
+            }
+        }
+        if scheme == Scheme::Levels && levels.is_empty() {
+            return Err(self.err(
+                d.span(),
+                "scheme \"levels\" needs levels",
+                "here",
+                "e.g. levels = { \"H+\" = [\"15 mM\", \"30 mM\"] }",
+            ));
+        }
+        let frac = |q: &Option<Q>, field: &str, default: f64| -> Result<f64> {
+            match q {
+                None => Ok(default),
+                Some(q) => {
+                    let v = self.qty(q, Kind::Fraction, field)?;
+                    if !(0.0..=0.5).contains(&v) {
+                        return Err(self.err(
+                            inner(q.span(), &self.src.text),
+                            format!("{field} must be from 0 % to 50 %"),
+                            "out of range",
+                            format!("e.g. {field} = \"2 %\""),
+                        ));
+                    }
+                    Ok(v)
+                }
+            }
+        };
+        // A human timing error of about 2 % (0.3 s on a 15 s run; common practice) and about
+        // 0.5 % from glassware when none is listed to propagate.
+        let timing_error = frac(&r.timing_error, "timing_error", 0.02)?;
+        let volumetric_error = frac(&r.volumetric_error, "volumetric_error", 0.005)?;
+        let temperature_spread = match &r.temperature_spread {
+            None => 0.5,
+            Some(q) => self.special(
+                q,
+                "temperature_spread",
+                Kind::Temperature,
+                "\"0.5 °C\"",
+                units::parse_temperature_difference,
+            )?,
+        };
+        Ok(Design {
+            base,
+            scheme,
+            multipliers,
+            levels,
+            timing_error,
+            temperature_spread,
+            volumetric_error,
         })
     }
 

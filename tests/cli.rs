@@ -631,3 +631,57 @@ fn fit_refuses_bad_times_with_a_location() {
         DEMO
     );
 }
+
+#[test]
+fn design_writes_runs_that_plan() {
+    let out = clockprep()
+        .args(["design", "plans/maple-hollow-bromate.toml"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let runs = String::from_utf8(out.stdout).unwrap();
+    assert!(runs.contains("order in H+: ±0.063 per station"), "{runs}");
+    assert_eq!(runs.matches("[[run]]").count(), 4);
+    // The designed runs replace the spec's runs and plan as they are.
+    let head = &DEMO[..DEMO.find("[[run]]").unwrap()];
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("designed.toml");
+    std::fs::write(&spec, format!("{head}\n{runs}")).unwrap();
+    clockprep()
+        .arg("plan")
+        .arg(&spec)
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("Run 4 of 4: H+ x2"));
+}
+
+#[test]
+fn tune_centres_or_says_what_to_change() {
+    clockprep()
+        .args(["tune", "plans/willow-creek-peroxide-forecast.toml"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains(
+            "Best single timing concentration: S2O3^2- 0.574 mM",
+        ));
+    // Acid ×3 in a run set that also has a slow base: with a 20 s to 40 s window nothing fits.
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("narrow.toml");
+    std::fs::write(
+        &spec,
+        FORECAST_DEMO.replace(
+            "window = [\"20 s\", \"8 min\"]",
+            "window = [\"20 s\", \"40 s\"]",
+        ),
+    )
+    .unwrap();
+    clockprep()
+        .arg("tune")
+        .arg(&spec)
+        .assert()
+        .code(1)
+        .stdout(predicate::str::contains(
+            "no single timing concentration fits",
+        ))
+        .stdout(predicate::str::contains("narrowest change"));
+}
