@@ -123,7 +123,11 @@ fn flagged_plan_exits_1() {
     let spec = dir.path().join("plan.toml");
     let text = DEMO
         .replace("tolerance = \"1 %\"", "tolerance = \"0.2 %\"")
-        .replacen("\"I-\" = \"2.00 mM\"", "\"I-\" = \"2.03 mM\"", 1);
+        .replacen(
+            "name = \"reference\"\ntargets = { \"I-\" = \"2.00 mM\"",
+            "name = \"reference\"\ntargets = { \"I-\" = \"2.03 mM\"",
+            1,
+        );
     std::fs::write(&spec, text).unwrap();
     clockprep()
         .arg("plan")
