@@ -90,40 +90,22 @@ pub fn chart(source: SpecSource) -> Result<String> {
         .is_empty();
     if has_stocks {
         let report = plan(source)?;
-        let rows: Vec<chart::Row> = report
-            .runs
-            .iter()
-            .filter_map(|r| {
-                r.forecast.as_ref().map(|f| chart::Row {
-                    name: &r.name,
-                    forecast: f,
-                })
-            })
-            .collect();
         let s = report
             .forecast_settings
             .as_ref()
             .ok_or_else(|| no_reaction(&report.spec))?;
         Ok(chart::svg(
             &report.title,
-            &rows,
+            &report.chart_rows(),
             (s.window_s[0], s.window_s[1]),
             s.band_c,
         ))
     } else {
         let sheet = forecast_only(source)?;
-        let rows: Vec<chart::Row> = sheet
-            .runs
-            .iter()
-            .map(|r| chart::Row {
-                name: &r.name,
-                forecast: &r.forecast,
-            })
-            .collect();
         let s = &sheet.forecast_settings;
         Ok(chart::svg(
             &sheet.title,
-            &rows,
+            &sheet.chart_rows(),
             (s.window_s[0], s.window_s[1]),
             s.band_c,
         ))

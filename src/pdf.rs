@@ -26,6 +26,18 @@ pub fn find_browser() -> Option<PathBuf> {
         .find(|p| p.is_file())
 }
 
+/// Flags for a headless run on a machine without a display, sandbox or network: the sandbox
+/// cannot start as root, and background networking only times out.
+pub const HEADLESS: [&str; 7] = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+];
+
 /// A folder under the system temp dir, removed when dropped.
 struct TempDir(PathBuf);
 
@@ -56,16 +68,8 @@ pub fn html_to_pdf(html: &[u8], browser: &Path) -> Result<Vec<u8>> {
     std::fs::write(&page, html)
         .map_err(|e| fail(format!("cannot write {}: {e}", page.display())))?;
     let out = Command::new(browser)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-background-networking",
-            "--disable-component-update",
-            "--disable-sync",
-            "--no-first-run",
-            "--no-pdf-header-footer",
-        ])
+        .args(HEADLESS)
+        .arg("--no-pdf-header-footer")
         .arg(format!(
             "--user-data-dir={}",
             dir.0.join("profile").display()

@@ -785,3 +785,31 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> Stock
         cautions: safety::cautions(used),
     }
 }
+
+impl PlanReport {
+    /// The runs with a forecast, as rows of the forecast chart.
+    pub fn chart_rows(&self) -> Vec<crate::chart::Row<'_>> {
+        self.runs
+            .iter()
+            .filter_map(|r| {
+                r.forecast.as_ref().map(|f| crate::chart::Row {
+                    name: &r.name,
+                    forecast: f,
+                })
+            })
+            .collect()
+    }
+}
+
+impl ForecastSheet {
+    /// Every run as a row of the forecast chart.
+    pub fn chart_rows(&self) -> Vec<crate::chart::Row<'_>> {
+        self.runs
+            .iter()
+            .map(|r| crate::chart::Row {
+                name: &r.name,
+                forecast: &r.forecast,
+            })
+            .collect()
+    }
+}

@@ -60,15 +60,7 @@ document.body.appendChild(n);
     let probed = dir.path().join("probe.html");
     std::fs::write(&probed, text.replace("</body>", probe)).unwrap();
     let out = process::Command::new(browser)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-background-networking",
-            "--disable-component-update",
-            "--disable-sync",
-            "--no-first-run",
-        ])
+        .args(clockprep::pdf::HEADLESS)
         .arg(format!(
             "--user-data-dir={}",
             dir.path().join("profile").display()

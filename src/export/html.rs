@@ -104,16 +104,7 @@ impl Exporter for Html {
     fn plan(&self, r: &PlanReport) -> Vec<u8> {
         let dec = ml_decimals(r);
         let v = |x: f64| format!("{x:.dec$}");
-        let chart_rows: Vec<chart::Row> = r
-            .runs
-            .iter()
-            .filter_map(|run| {
-                run.forecast.as_ref().map(|f| chart::Row {
-                    name: &run.name,
-                    forecast: f,
-                })
-            })
-            .collect();
+        let chart_rows = r.chart_rows();
         let body = html! {
             h1 { "Mixing sheet: " (r.title) }
             p {
@@ -193,14 +184,7 @@ impl Exporter for Html {
     }
 
     fn forecast(&self, s: &ForecastSheet) -> Vec<u8> {
-        let rows: Vec<chart::Row> = s
-            .runs
-            .iter()
-            .map(|r| chart::Row {
-                name: &r.name,
-                forecast: &r.forecast,
-            })
-            .collect();
+        let rows = s.chart_rows();
         let set = &s.forecast_settings;
         let body = html! {
             h1 { "Clock-time forecast: " (s.title) }
