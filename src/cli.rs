@@ -19,7 +19,7 @@ pub const EXIT_ERROR: i32 = 2;
 #[command(
     name = "clockprep",
     version,
-    about = "Plan clock-reaction kinetics labs: deliverable stock volumes, mixing sheets and stock totals from one TOML spec",
+    about = "Plan clock-reaction kinetics labs from one TOML spec: deliverable stock volumes, mixing sheets, clock-time forecasts, stock recipes and bench cards",
     after_help = "Exit codes: 0 all well, 1 computed but flagged, 2 bad input or no recipe."
 )]
 pub struct Cli {
@@ -116,6 +116,11 @@ pub enum Command {
         spec: PathBuf,
         #[command(flatten)]
         out: OutputArgs,
+    },
+    /// Print a shell completion script (e.g. clockprep completions bash > ~/.local/share/bash-completion/completions/clockprep).
+    Completions {
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
     },
 }
 
@@ -279,6 +284,13 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             let (text, fits) = crate::tune(read_spec(&spec)?)?;
             emit(text.as_bytes(), None, false, &spec)?;
             Ok(if fits { EXIT_OK } else { EXIT_FLAGGED })
+        }
+        Command::Completions { shell } => {
+            use clap::CommandFactory;
+            let mut out = Vec::new();
+            clap_complete::generate(shell, &mut Cli::command(), "clockprep", &mut out);
+            let _ = std::io::stdout().lock().write_all(&out);
+            Ok(EXIT_OK)
         }
         Command::Forecast { spec, out } => {
             let sheet = crate::forecast_only(read_spec(&spec)?)?;

@@ -149,14 +149,17 @@ pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Con
 /// Fit the prior to measured times; returns the updated prior as a TOML fragment.
 pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<String> {
     let (spec, initial) = initial_concentrations(source)?;
-    let species: Vec<String> = spec
+    let prior: Vec<(String, f64)> = spec
         .reaction
         .as_ref()
         .and_then(|r| r.terms.first())
-        .map(|t| t.orders.iter().map(|(s, _)| s.clone()).collect())
+        .map(|t| t.orders.clone())
         .unwrap_or_default();
+    let species: Vec<String> = prior.iter().map(|(s, _)| s.clone()).collect();
     let fixed = match orders {
         None => Vec::new(),
+        // Every order held at the prior's value: fit k (and Ea) alone.
+        Some(text) if text.trim() == "prior" => prior,
         Some(text) => fit::parse_orders(text, &species).map_err(|e| {
             SpecSource::new("--orders", text).error(
                 0..text.len(),

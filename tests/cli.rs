@@ -564,6 +564,17 @@ fn fit_writes_a_prior_that_loads_again() {
         .assert()
         .code(0)
         .stdout(predicate::str::contains("order in H+: 2 (fixed)"));
+    clockprep()
+        .args([
+            "fit",
+            "plans/maple-hollow-bromate.toml",
+            "plans/maple-hollow-pilot.csv",
+            "--orders",
+            "prior",
+        ])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("order in BrO3-: 1 (fixed)"));
 }
 
 #[test]

@@ -137,3 +137,38 @@ fn least_squares_matches_an_svd_solve() {
         }
     }
 }
+
+#[test]
+fn two_temperatures_give_the_activation_energy() {
+    // Exact times at 18 °C and 25 °C from the prior with Ea = 62 kJ/mol instead of its 54:
+    // the fit returns 62 kJ/mol and k at the prior's reference temperature (Arrhenius,
+    // R from CODATA 2018).
+    let (spec, initial) = demo();
+    let mut truth = spec.reaction.clone().unwrap();
+    truth.terms[0].activation_energy = Some(62_000.0);
+    let mut trials = Vec::new();
+    for (run, c0) in initial.iter().enumerate() {
+        for celsius in [18.0, 25.0] {
+            let temperature = 273.15 + celsius;
+            let time = RunKinetics::new(&truth, c0, spec.timing.concentration)
+                .unwrap()
+                .at(temperature)
+                .to_colour();
+            trials.push(Trial {
+                run,
+                time,
+                temperature: Some(temperature),
+                line: 0,
+            });
+        }
+    }
+    let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
+    assert!(f.ea_fitted);
+    approx::assert_relative_eq!(
+        f.activation_energy.unwrap().value,
+        62_000.0,
+        max_relative = 1e-6
+    );
+    approx::assert_relative_eq!(f.t_ref, truth.terms[0].t_ref);
+    approx::assert_relative_eq!(f.k.value, truth.terms[0].k_ref, max_relative = 1e-6);
+}
