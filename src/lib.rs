@@ -1,9 +1,12 @@
 //! clockprep: plan clock-reaction kinetics labs from one TOML spec.
 //!
-//! The data flow is one module per stage:
+//! The data flow of [`plan`] is one module per stage:
 //! [`spec`] (parse, units, validate) → [`solve`] (the integer LP for deliverable volumes) →
 //! [`mixing`] (the two portions mixed at t = 0) → [`totals`] (stock to prepare) →
-//! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON, Markdown).
+//! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`uncertainty`]
+//! (glassware and stocks) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON,
+//! Markdown, HTML, bench cards). The other commands branch off the same stages: [`recipes`]
+//! (stock sheet), [`chart`], [`fit`], [`design`] and [`tune`].
 
 pub mod chart;
 pub mod chem;
