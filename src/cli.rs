@@ -78,7 +78,7 @@ pub enum Command {
     /// Fit the prior rate law to measured times (pilot or class); writes the updated prior as
     /// a TOML fragment (never edits the spec).
     Fit {
-        /// The spec (TOML) with the prior in [reaction] and the timed runs.
+        /// The spec (TOML) with the prior in `[reaction]` and the timed runs.
         spec: PathBuf,
         /// CSV with a header and columns run, time and optionally temperature.
         times: PathBuf,
@@ -92,10 +92,10 @@ pub enum Command {
         #[arg(long)]
         force: bool,
     },
-    /// Write the runs of a design scheme ([design] in the spec) as TOML, with the standard
+    /// Write the runs of a design scheme (`[design]` in the spec) as TOML, with the standard
     /// error each order and ln k can be expected to have.
     Design {
-        /// The spec (TOML) with [plan], [timing], [design] and optionally [reaction] and stocks.
+        /// The spec (TOML) with `[plan]`, `[timing]`, `[design]` and optionally `[reaction]` and stocks.
         spec: PathBuf,
         /// Write to this file instead of stdout (atomically; never over the spec).
         #[arg(short, long)]
@@ -106,13 +106,13 @@ pub enum Command {
     },
     /// Find the one timing-reagent concentration that times every run best.
     Tune {
-        /// The spec (TOML) with [reaction] and runs.
+        /// The spec (TOML) with `[reaction]` and runs.
         spec: PathBuf,
     },
     /// Forecast the time to colour of every run from its target concentrations and the prior
-    /// rate law in [reaction] (no stocks or glassware needed).
+    /// rate law in `[reaction]` (no stocks or glassware needed).
     Forecast {
-        /// The spec (TOML) with [plan], [timing], [reaction] and runs.
+        /// The spec (TOML) with `[plan]`, `[timing]`, `[reaction]` and runs.
         spec: PathBuf,
         #[command(flatten)]
         out: OutputArgs,

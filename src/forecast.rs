@@ -24,7 +24,7 @@ pub struct RunForecast {
     pub uses_visible: bool,
     /// Fraction of each reactant used up at the clock.
     pub conversions: Vec<(String, f64)>,
-    /// The rate (M/s) students would compute from the predicted time, [timing]₀/(ν t).
+    /// The rate (M/s) students would compute from the predicted time, `[timing]`₀/(ν t).
     pub implied_rate: Option<f64>,
     pub warnings: Vec<Flag>,
 }

@@ -6,7 +6,7 @@
 //! species consumed): cᵢ(ξ) = cᵢ₀ + δᵢ ξ, with δ the net change of the two reactions together.
 //! The rate law gives dξ/dt = r(ξ) = Σⱼ kⱼ(T) Πᵢ cᵢ(ξ)^nᵢⱼ, so the time to the clock is
 //!
-//!   t_clock = ∫₀^ξc dξ / r(ξ),   ξc = [timing]₀ / ν,
+//!   t_clock = ∫₀^ξc dξ / r(ξ),   ξc = `[timing]`₀ / ν,
 //!
 //! with ν the mol of timing reagent consumed per mol of rate species. The integral is computed
 //! by adaptive Gauss–Kronrod (7/15 points) to a relative tolerance of 1e-10. After the timing
@@ -329,7 +329,7 @@ pub struct Timing {
     pub clock: f64,
     /// s, from then until the colour is visible (0 without a threshold).
     pub visible_extra: f64,
-    /// s, by the initial-rate approximation [timing]₀ / (ν r₀).
+    /// s, by the initial-rate approximation `[timing]`₀ / (ν r₀).
     pub initial_rate: f64,
     /// M/s, the initial rate r₀ of rate-species consumption.
     pub rate0: f64,
@@ -488,7 +488,7 @@ impl RunKinetics {
             .map(move |(s, c, d)| (s.as_str(), -d * self.xi_clock / c))
     }
 
-    /// The rate (M/s) implied by a measured time: [timing]₀ / (ν t).
+    /// The rate (M/s) implied by a measured time: `[timing]`₀ / (ν t).
     pub fn rate_from_time(&self, seconds: f64) -> f64 {
         self.timing / (self.nu * seconds)
     }

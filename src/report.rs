@@ -113,11 +113,11 @@ pub struct ForecastReport {
     pub visible_extra_s: Option<f64>,
     /// Time to colour at the warm (fast) and cool (slow) ends of the band.
     pub band_s: Option<[f64; 2]>,
-    /// The initial-rate approximation [timing]₀/(ν r₀) of the clock time.
+    /// The initial-rate approximation `[timing]`₀/(ν r₀) of the clock time.
     pub initial_rate_s: Option<f64>,
     /// (approximation − exact clock time)/exact, percent.
     pub initial_rate_difference_pct: Option<f64>,
-    /// The rate a student computes from the predicted time: [timing]₀/(ν t).
+    /// The rate a student computes from the predicted time: `[timing]`₀/(ν t).
     #[serde(rename = "rate_M_per_s")]
     pub rate: Option<f64>,
     /// The true initial rate r₀ of the prior rate law.
