@@ -6,7 +6,8 @@
 //! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`uncertainty`]
 //! (glassware and stocks) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON,
 //! Markdown, HTML, bench cards). The other commands branch off the same stages: [`recipes`]
-//! (stock sheet), [`chart`], [`fit`], [`design`] and [`tune`].
+//! (stock sheet), [`chart`](mod@chart), [`fit`](mod@fit), [`design`](mod@design) and
+//! [`tune`](mod@tune).
 
 pub mod chart;
 pub mod chem;
