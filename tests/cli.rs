@@ -700,3 +700,13 @@ fn tune_centres_or_says_what_to_change() {
         ))
         .stdout(predicate::str::contains("narrowest change"));
 }
+
+#[test]
+fn completions_for_a_shell() {
+    clockprep()
+        .args(["completions", "bash"])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("clockprep"))
+        .stdout(predicate::str::contains("forecast"));
+}
