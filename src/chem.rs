@@ -132,19 +132,33 @@ fn hydrate_parts(text: &str) -> Vec<(usize, &str)> {
     parts
 }
 
-fn count(b: &[u8], pos: &mut usize) -> f64 {
+/// The count after an element or bracket (1 when none is written). A count may not start
+/// with 0: "KBr03" is almost always "KBrO3" with a zero typed for the letter O.
+fn count(b: &[u8], pos: &mut usize, base: usize) -> Result<f64, FormulaError> {
     let start = *pos;
     while *pos < b.len() && b[*pos].is_ascii_digit() {
         *pos += 1;
     }
     if *pos == start {
-        1.0
-    } else {
-        std::str::from_utf8(&b[start..*pos])
-            .ok()
-            .and_then(|s| s.parse().ok())
-            .unwrap_or(1.0)
+        return Ok(1.0);
     }
+    let digits = std::str::from_utf8(&b[start..*pos]).unwrap_or("");
+    if digits.starts_with('0') {
+        return Err(FormulaError {
+            message: format!("the count '{digits}' starts with a zero; did you mean the letter O?"),
+            at: base + start,
+        });
+    }
+    if digits.len() > 4 {
+        return Err(FormulaError {
+            message: format!("the count '{digits}' is too large for a formula"),
+            at: base + start,
+        });
+    }
+    digits.parse().map_err(|_| FormulaError {
+        message: "not a count".into(),
+        at: base + start,
+    })
 }
 
 fn group(
@@ -166,7 +180,7 @@ fn group(
         if c == b'(' || c == b'[' {
             *pos += 1;
             let inner = group(b, pos, base, true)?;
-            let n = count(b, pos);
+            let n = count(b, pos, base)?;
             for (e, k) in inner {
                 push(&mut out, e, k * n);
             }
@@ -192,7 +206,7 @@ fn group(
                     at: base + start,
                 });
             }
-            let n = count(b, pos);
+            let n = count(b, pos, base)?;
             push(&mut out, symbol.to_string(), n);
         } else {
             return Err(FormulaError {
@@ -216,6 +230,181 @@ pub fn molar_mass(text: &str) -> Result<f64, FormulaError> {
         .iter()
         .map(|(e, n)| atomic_weight(e).unwrap_or(0.0) * n)
         .sum())
+}
+
+/// Elements of a solute's formula unit without its water of hydration ("Na2S2O3·5H2O" →
+/// Na2S2O3): water of crystallisation is not one of the species a stock lists.
+pub fn anhydrous(text: &str) -> Result<Vec<(String, f64)>, FormulaError> {
+    let parts = hydrate_parts(text);
+    let (first_at, first) = parts[0];
+    let mut total = parse_formula(first).map_err(|e| FormulaError {
+        at: e.at + first_at,
+        ..e
+    })?;
+    for &(at, part) in &parts[1..] {
+        let counts = parse_formula(part).map_err(|e| FormulaError { at: e.at + at, ..e })?;
+        let water = counts.len() == 2
+            && counts.iter().any(|(e, _)| e == "H")
+            && counts.iter().any(|(e, _)| e == "O")
+            && {
+                let h = counts.iter().find(|(e, _)| e == "H").map_or(0.0, |x| x.1);
+                let o = counts.iter().find(|(e, _)| e == "O").map_or(0.0, |x| x.1);
+                (h - 2.0 * o).abs() < 1e-9
+            };
+        if !water {
+            for (e, n) in counts {
+                match total.iter_mut().find(|(s, _)| *s == e) {
+                    Some(x) => x.1 += n,
+                    None => total.push((e, n)),
+                }
+            }
+        }
+    }
+    Ok(total)
+}
+
+/// A species as its elements and charge, for [`dissociation`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Ion {
+    pub name: String,
+    pub elements: Vec<(String, f64)>,
+    pub charge: i32,
+}
+
+/// Why a formula does not split into the listed species.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Mismatch {
+    /// The species holds an element the formula has none of.
+    CannotSupply { species: String, element: String },
+    /// No whole-number split explains every atom and the charge; `rest` describes what is
+    /// left over by the closest split (a counter-ion that is not listed, for instance).
+    NoSplit { rest: Option<String> },
+    /// More than one split fits; the species do not say how much formula unit there is.
+    Ambiguous,
+}
+
+/// Largest coefficient tried for one species in a formula unit (common practice: salts in a
+/// teaching lab give at most a few ions of each kind, e.g. K4[Fe(CN)6] gives 4 K+).
+const MAX_COEFFICIENT: u32 = 12;
+
+/// How one formula unit splits into the listed species: a whole number of each (at least
+/// one) that accounts for every atom of the anhydrous formula and leaves no net charge.
+pub fn dissociation(formula: &[(String, f64)], ions: &[Ion]) -> Result<Vec<u32>, Mismatch> {
+    for ion in ions {
+        if let Some((e, _)) = ion
+            .elements
+            .iter()
+            .find(|(e, _)| !formula.iter().any(|(f, n)| f == e && *n > 0.0))
+        {
+            return Err(Mismatch::CannotSupply {
+                species: ion.name.clone(),
+                element: e.clone(),
+            });
+        }
+    }
+    let mut found: Vec<Vec<u32>> = Vec::new();
+    let mut n = vec![0u32; ions.len()];
+    search(formula, ions, 0, &mut n, &mut found);
+    match found.len() {
+        1 => Ok(found.remove(0)),
+        0 => Err(Mismatch::NoSplit {
+            rest: leftover(formula, ions),
+        }),
+        _ => Err(Mismatch::Ambiguous),
+    }
+}
+
+fn remaining(formula: &[(String, f64)], ions: &[Ion], n: &[u32]) -> Vec<(String, f64)> {
+    formula
+        .iter()
+        .map(|(e, total)| {
+            let used: f64 = ions
+                .iter()
+                .zip(n)
+                .map(|(ion, &k)| {
+                    k as f64
+                        * ion
+                            .elements
+                            .iter()
+                            .find(|(s, _)| s == e)
+                            .map_or(0.0, |x| x.1)
+                })
+                .sum();
+            (e.clone(), total - used)
+        })
+        .collect()
+}
+
+fn search(
+    formula: &[(String, f64)],
+    ions: &[Ion],
+    i: usize,
+    n: &mut Vec<u32>,
+    found: &mut Vec<Vec<u32>>,
+) {
+    if found.len() > 1 {
+        return;
+    }
+    if i == ions.len() {
+        let rest = remaining(formula, ions, n);
+        let charge: i64 = ions
+            .iter()
+            .zip(n.iter())
+            .map(|(ion, &k)| ion.charge as i64 * k as i64)
+            .sum();
+        if charge == 0 && rest.iter().all(|(_, r)| r.abs() < 1e-9) {
+            found.push(n.clone());
+        }
+        return;
+    }
+    for k in 1..=MAX_COEFFICIENT {
+        n[i] = k;
+        // Later coefficients are still zero here.
+        let rest = remaining(formula, ions, n);
+        if rest.iter().any(|(_, r)| *r < -1e-9) {
+            break;
+        }
+        search(formula, ions, i + 1, n, found);
+    }
+    n[i] = 0;
+}
+
+/// What one of each listed species leaves of the formula, written as a species where it is
+/// one element ("K+" for KI with only I- listed).
+fn leftover(formula: &[(String, f64)], ions: &[Ion]) -> Option<String> {
+    let ones = vec![1u32; ions.len()];
+    let rest: Vec<(String, f64)> = remaining(formula, ions, &ones)
+        .into_iter()
+        .filter(|(_, r)| r.abs() > 1e-9)
+        .collect();
+    if rest.is_empty() || rest.iter().any(|(_, r)| *r < 0.0) {
+        return None;
+    }
+    let charge: i32 = -ions.iter().map(|i| i.charge).sum::<i32>();
+    let atoms: String = rest
+        .iter()
+        .map(|(e, r)| {
+            if (r - 1.0).abs() < 1e-9 {
+                e.clone()
+            } else {
+                format!("{e}{}", crate::units::fmt_count(*r))
+            }
+        })
+        .collect();
+    if let [(e, count)] = rest.as_slice() {
+        let c = count.round() as i32;
+        if c >= 1 && charge != 0 && charge % c == 0 {
+            let z = charge / c;
+            let sign = if z > 0 { '+' } else { '-' };
+            let ion = if z.abs() == 1 {
+                format!("{e}{sign}")
+            } else {
+                format!("{e}^{}{sign}", z.abs())
+            };
+            return Some(if c == 1 { ion } else { format!("{c} {ion}") });
+        }
+    }
+    Some(format!("{atoms} (charge {charge:+})"))
 }
 
 #[cfg(test)]

@@ -110,13 +110,15 @@ pub fn parse_equation(text: &str) -> Result<Equation, EquationError> {
                     continue;
                 }
             }
-            let sp = crate::species::canonical(t);
-            if let Err(e) = crate::species::charge(&sp) {
-                return Err(EquationError {
-                    message: format!("'{t}': {}", e.describe()),
-                    at: at..at + t.len(),
-                });
-            }
+            let sp = match crate::species::parse(t) {
+                Ok(s) => s.name,
+                Err(e) => {
+                    return Err(EquationError {
+                        message: format!("'{t}': {}; {}", e.describe(), e.hint()),
+                        at: at..at + t.len(),
+                    })
+                }
+            };
             let c = coef.take().unwrap_or(1.0);
             match out.iter_mut().find(|(s, _)| *s == sp) {
                 Some(e) => e.1 += c,
@@ -133,10 +135,75 @@ pub fn parse_equation(text: &str) -> Result<Equation, EquationError> {
         }
         Ok(out)
     };
-    Ok(Equation {
+    let eq = Equation {
         reactants: side(&tokens[..arrows[0]])?,
         products: side(&tokens[arrows[0] + 1..])?,
-    })
+    };
+    eq.check_balance().map_err(|message| EquationError {
+        message,
+        at: 0..text.len(),
+    })?;
+    Ok(eq)
+}
+
+impl Equation {
+    /// Atoms of every element and the charge must be the same on both sides; the message names
+    /// what differs, with its count on each side.
+    pub fn check_balance(&self) -> Result<(), String> {
+        let mut atoms: Vec<(String, [f64; 2])> = Vec::new();
+        let mut charge = [0.0, 0.0];
+        for (side_no, side) in [&self.reactants, &self.products].into_iter().enumerate() {
+            for (sp, n) in side {
+                let parsed = crate::species::parse(sp).map_err(|e| e.describe())?;
+                let elements = crate::species::elements(sp).map_err(|e| e.describe())?;
+                for (e, k) in elements {
+                    match atoms.iter_mut().find(|(s, _)| *s == e) {
+                        Some((_, sides)) => sides[side_no] += n * k,
+                        None => {
+                            let mut sides = [0.0, 0.0];
+                            sides[side_no] = n * k;
+                            atoms.push((e, sides));
+                        }
+                    }
+                }
+                charge[side_no] += n * parsed.charge as f64;
+            }
+        }
+        let differs = |[a, b]: [f64; 2]| (a - b).abs() > 1e-9 * (1.0 + a.abs().max(b.abs()));
+        let num = crate::units::fmt_count;
+        let mut problems: Vec<String> = atoms
+            .iter()
+            .filter(|(_, sides)| differs(*sides))
+            .map(|(e, [l, r])| format!("{e} {} on the left, {} on the right", num(*l), num(*r)))
+            .collect();
+        if differs(charge) {
+            problems.push(format!(
+                "charge {} on the left, {} on the right",
+                signed(charge[0]),
+                signed(charge[1])
+            ));
+        }
+        if problems.is_empty() {
+            Ok(())
+        } else {
+            Err(format!(
+                "the equation does not balance: {}",
+                problems.join("; ")
+            ))
+        }
+    }
+}
+
+/// A charge total with its sign: "+1", "−2", "0".
+fn signed(v: f64) -> String {
+    let s = crate::units::fmt_count(v.abs());
+    if v > 0.0 {
+        format!("+{s}")
+    } else if v < 0.0 {
+        format!("\u{2212}{s}")
+    } else {
+        "0".into()
+    }
 }
 
 /// One power-law term of the rate law, k(T) Π cᵢ^nᵢ.

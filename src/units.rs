@@ -378,14 +378,49 @@ pub fn concentration(molar: f64) -> String {
     format!("{} {u}", sig3(v))
 }
 
-/// Three significant figures, without scientific notation for lab-sized numbers.
+/// Three significant figures, without scientific notation for lab-sized numbers (1e-3 up to
+/// 1e6); outside that, "1.23e8". Never "-0".
 pub fn sig3(v: f64) -> String {
-    if v == 0.0 {
-        return "0".into();
+    sig(v, 3)
+}
+
+/// `figures` significant figures, as [`sig3`].
+pub fn sig(v: f64, figures: i32) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return if v.is_nan() {
+            "NaN".into()
+        } else if v == 0.0 {
+            "0".into()
+        } else {
+            format!("{v}")
+        };
     }
     let mag = v.abs().log10().floor() as i32;
-    let decimals = (2 - mag).max(0) as usize;
-    format!("{:.*}", decimals, v)
+    let out = if !(-3..6).contains(&mag) {
+        format!("{:.*e}", (figures - 1).max(0) as usize, v)
+    } else {
+        let decimals = (figures - 1 - mag).max(0) as usize;
+        format!("{:.*}", decimals, v)
+    };
+    no_negative_zero(out)
+}
+
+/// "-0.00" → "0.00": a rounded zero carries no sign.
+pub fn no_negative_zero(s: String) -> String {
+    match s.strip_prefix('-') {
+        Some(rest) if rest.bytes().all(|b| b == b'0' || b == b'.') => rest.to_string(),
+        _ => s,
+    }
+}
+
+/// A count such as a stoichiometric coefficient: "3", "0.5", "1.333333".
+pub fn fmt_count(v: f64) -> String {
+    let r = (v * 1e6).round() / 1e6;
+    if r == 0.0 {
+        "0".into()
+    } else {
+        format!("{r}")
+    }
 }
 
 /// Decimal places needed to show a step such as 0.05 mL or 0.001 mL exactly.

@@ -267,8 +267,8 @@ const BAD: &[(&str, &str, &str, &str)] = &[
     ),
     (
         "one stock holds a keep-apart group",
-        "contains = { \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\" }",
-        "contains = { \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\", \"S2O3^2-\" = \"1.00 mM\" }",
+        "fixed_volume = \"1.00 mL\"",
+        "fixed_volume = \"1.00 mL\"\ncontains = { \"S2O3^2-\" = \"1.00 mM\", \"Na+\" = \"2.00 mM\" }",
         "more than one stock",
     ),
     (

@@ -58,15 +58,15 @@ species = "S2O3^2-"
 concentration = "{timing_c:e} M"
 
 [mixing]
-keep_apart = [["X-", "Y+"]]
+keep_apart = [["I-", "Cs+"]]
 
 [[stock]]
 name = "A"
-contains = {{ "X-" = "{:e} M", "Na+" = "{:e} M" }}
+contains = {{ "I-" = "{:e} M", "Na+" = "{:e} M" }}
 
 [[stock]]
 name = "B"
-contains = {{ "Y+" = "{:e} M", "Cl-" = "{:e} M" }}
+contains = {{ "Cs+" = "{:e} M", "Cl-" = "{:e} M" }}
 
 [[stock]]
 name = "thio"
@@ -90,7 +90,7 @@ graduation = "{} mL"
         let ta = c.c_stock[0] * va / c.total_ml;
         let tb = c.c_stock[1] * vb / c.total_ml;
         s.push_str(&format!(
-            "\n[[run]]\nname = \"r{i}\"\ntargets = {{ \"X-\" = \"{ta:e} M\", \"Y+\" = \"{tb:e} M\" }}\n"
+            "\n[[run]]\nname = \"r{i}\"\ntargets = {{ \"I-\" = \"{ta:e} M\", \"Cs+\" = \"{tb:e} M\" }}\n"
         ));
     }
     s
@@ -123,7 +123,7 @@ proptest! {
             prop_assert_eq!(r.volume_of(timing), first_timing);
             // Reported deviations are those of the delivered volumes.
             for g in &r.goals {
-                let (stock, conc) = if g.label == "X-" { (0, c.c_stock[0]) } else { (1, c.c_stock[1]) };
+                let (stock, conc) = if g.label == "I-" { (0, c.c_stock[0]) } else { (1, c.c_stock[1]) };
                 let achieved = conc * r.volume_of(stock) / spec.total_volume;
                 approx::assert_relative_eq!(g.achieved, achieved, max_relative = 1e-12);
                 approx::assert_relative_eq!(g.deviation, (achieved - g.target) / g.target, epsilon = 1e-12);

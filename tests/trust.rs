@@ -1,0 +1,250 @@
+//! Regression tests for sheets that were once wrong without a word: every input that can be
+//! cross-checked is, and a refusal says where and how to fix it.
+
+mod common;
+use common::*;
+
+const THIO: &str = r#"contains = { "S2O3^2-" = "1.00 mM", "Na+" = "2.00 mM" }"#;
+
+fn stock<'a>(report: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    report["stocks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["name"] == name)
+        .unwrap_or_else(|| panic!("no stock {name}"))
+}
+
+#[test]
+fn solute_mass_does_not_depend_on_the_order_of_contains_keys() {
+    let swapped = edit(
+        BROMATE,
+        THIO,
+        r#"contains = { "Na+" = "2.00 mM", "S2O3^2-" = "1.00 mM" }"#,
+    );
+    let a = run("stocks", BROMATE, &["-f", "json"]);
+    let b = run("stocks", &swapped, &["-f", "json"]);
+    assert_eq!(a.code, 0, "{}", a.stderr);
+    assert_eq!(b.code, 0, "{}", b.stderr);
+    let (a, b) = (json(&a.stdout), json(&b.stdout));
+    let (sa, sb) = (stock(&a, "Na2S2O3 1.00 mM"), stock(&b, "Na2S2O3 1.00 mM"));
+    assert_eq!(sa["recipe"], sb["recipe"]);
+    // m = c·V·M with M(Na2S2O3·5H2O) = 248.18 g/mol from the IUPAC 2021 standard atomic
+    // weights (Prohaska et al., Pure Appl. Chem. 94, 573, 2022).
+    let flask_l = sb["flask_mL"].as_f64().unwrap() / 1000.0;
+    let grams = sb["recipe"]["grams_per_flask"].as_f64().unwrap();
+    approx::assert_relative_eq!(grams, 1.00e-3 * flask_l * 248.18, max_relative = 2e-4);
+    approx::assert_relative_eq!(sb["solute_concentration_M"].as_f64().unwrap(), 1.00e-3);
+}
+
+#[test]
+fn contains_ratios_that_disagree_with_the_formula_are_refused() {
+    let bad = edit(
+        BROMATE,
+        THIO,
+        r#"contains = { "S2O3^2-" = "1.00 mM", "Na+" = "1.00 mM" }"#,
+    );
+    let o = run("stocks", &bad, &[]);
+    assert_refused(&o, "Na2S2O3·5H2O gives 2 Na+ per 1 S2O3^2-");
+    // Pasting either suggestion back is accepted.
+    assert!(
+        says(
+            &o.stderr,
+            "\"Na+\" = \"2.00 mM\" beside \"S2O3^2-\" = \"1.00 mM\""
+        ),
+        "{}",
+        o.stderr
+    );
+    assert!(
+        says(
+            &o.stderr,
+            "\"S2O3^2-\" = \"0.500 mM\" beside \"Na+\" = \"1.00 mM\""
+        ),
+        "{}",
+        o.stderr
+    );
+    let first = edit(&bad, "\"Na+\" = \"1.00 mM\"", "\"Na+\" = \"2.00 mM\"");
+    assert_eq!(run("stocks", &first, &[]).code, 0);
+    let second = edit(
+        &bad,
+        "\"S2O3^2-\" = \"1.00 mM\"",
+        "\"S2O3^2-\" = \"0.500 mM\"",
+    );
+    let o = run("stocks", &second, &[]);
+    assert!(
+        o.code == 0 || !says(&o.stderr, "ratio does not match"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
+fn a_zero_typed_for_the_letter_o_in_a_solute_is_refused() {
+    let o = run(
+        "stocks",
+        &edit(BROMATE, "solute = \"KBrO3\"", "solute = \"KBr03\""),
+        &[],
+    );
+    assert_refused(&o, "starts with a zero; did you mean the letter O?");
+}
+
+#[test]
+fn a_solute_that_cannot_supply_a_listed_species_is_refused_naming_both() {
+    let o = run(
+        "stocks",
+        &edit(BROMATE, "solute = \"KBrO3\"", "solute = \"KBr3\""),
+        &[],
+    );
+    assert_refused(&o, "solute 'KBr3' has no O, so it cannot supply BrO3-");
+}
+
+#[test]
+fn a_counter_ion_left_out_of_contains_is_named() {
+    let o = run(
+        "stocks",
+        &edit(
+            BROMATE,
+            r#"contains = { "I-" = "0.0100 M", "K+" = "0.0100 M" }"#,
+            r#"contains = { "I-" = "0.0100 M" }"#,
+        ),
+        &[],
+    );
+    assert_refused(&o, "solute 'KI' gives I- and also K+");
+}
+
+#[test]
+fn solute_concentration_that_disagrees_with_contains_is_refused() {
+    let o = run(
+        "stocks",
+        &edit(
+            BROMATE,
+            "solute = \"KI\"",
+            "solute = \"KI\"\nsolute_concentration = \"0.0200 M\"",
+        ),
+        &[],
+    );
+    assert_refused(&o, "solute_concentration 20.0 mM disagrees with contains");
+    // Agreeing with contains, it is accepted.
+    let ok = edit(
+        BROMATE,
+        "solute = \"KI\"",
+        "solute = \"KI\"\nsolute_concentration = \"0.0100 M\"",
+    );
+    assert_eq!(run("stocks", &ok, &[]).code, 0);
+}
+
+#[test]
+fn a_dilution_that_leaves_out_a_species_of_its_source_is_refused() {
+    let o = run(
+        "stocks",
+        &edit(
+            BROMATE,
+            r#"contains = { "H+" = "0.100 M", "Cl-" = "0.100 M" }"#,
+            r#"contains = { "H+" = "0.100 M" }"#,
+        ),
+        &[],
+    );
+    assert_refused(&o, "stock 'HCl 0.100 M' leaves out Cl-");
+    assert!(says(&o.stderr, "\"Cl-\" = \"0.100 M\""), "{}", o.stderr);
+}
+
+#[test]
+fn unbalanced_equations_are_refused_naming_element_and_charge() {
+    let atoms = edit(
+        BROMATE,
+        "preset = \"bromate-iodide\"",
+        "preset = \"bromate-iodide\"\nmain = \"BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 2 H2O\"",
+    );
+    let o = run("forecast", &atoms, &[]);
+    assert_refused(&o, "does not balance");
+    assert!(
+        says(&o.stderr, "O 3 on the left, 2 on the right"),
+        "{}",
+        o.stderr
+    );
+    assert!(
+        says(&o.stderr, "H 6 on the left, 4 on the right"),
+        "{}",
+        o.stderr
+    );
+    let charge = edit(
+        BROMATE,
+        "preset = \"bromate-iodide\"",
+        "preset = \"bromate-iodide\"\nclock = \"I2 + 2 S2O3^2- -> I- + S4O6^2-\"",
+    );
+    let o = run("forecast", &charge, &[]);
+    assert_refused(&o, "I 2 on the left, 1 on the right");
+    assert!(
+        says(
+            &o.stderr,
+            "charge \u{2212}4 on the left, \u{2212}3 on the right"
+        ),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
+fn a_charge_written_after_its_digit_is_refused_with_the_caret_form() {
+    let o = run("plan", &PERSULFATE.replace("SO4^2-", "SO4-2"), &[]);
+    assert_refused(&o, "the charge's number comes after its sign");
+    assert!(says(&o.stderr, "\"SO4^2-\""), "{}", o.stderr);
+}
+
+#[test]
+fn repeated_minus_signs_are_the_same_species_as_the_caret() {
+    let a = run("plan", BROMATE, &["-f", "json"]);
+    let b = run(
+        "plan",
+        &BROMATE.replace("S2O3^2-", "S2O3--"),
+        &["-f", "json"],
+    );
+    assert_eq!(a.code, 0, "{}", a.stderr);
+    assert_eq!(b.code, 0, "{}", b.stderr);
+    let (a, b) = (json(&a.stdout), json(&b.stdout));
+    assert_eq!(a["runs"], b["runs"]);
+    assert_eq!(a["stock_totals"], b["stock_totals"]);
+}
+
+#[test]
+fn an_en_dash_for_a_minus_sign_is_named() {
+    let o = run(
+        "plan",
+        &BROMATE.replacen("\"I-\" = \"0.0100 M\"", "\"I\u{2013}\" = \"0.0100 M\"", 1),
+        &[],
+    );
+    assert_refused(&o, "en dash, U+2013");
+}
+
+#[test]
+fn a_concentrate_without_solute_is_worked_out_from_its_species() {
+    let without = edit(BROMATE, "solute = \"HCl\"\n", "");
+    let a = run("stocks", BROMATE, &["-f", "json"]);
+    let b = run("stocks", &without, &["-f", "json"]);
+    assert_eq!(b.code, 0, "{}", b.stderr);
+    let (a, b) = (json(&a.stdout), json(&b.stdout));
+    assert_eq!(
+        stock(&a, "HCl 1.00 M")["recipe"]["mL_per_flask"],
+        stock(&b, "HCl 1.00 M")["recipe"]["mL_per_flask"]
+    );
+    assert_eq!(stock(&b, "HCl 1.00 M")["recipe"]["kind"], "measure");
+}
+
+#[test]
+fn a_concentrate_whose_species_do_not_fix_the_formula_asks_for_the_solute() {
+    let bad = edit(
+        BROMATE,
+        "solute = \"HCl\"\ncontains = { \"H+\" = \"1.00 M\", \"Cl-\" = \"1.00 M\" }",
+        "contains = { \"H+\" = \"1.00 M\", \"Cl-\" = \"0.500 M\" }",
+    );
+    let o = run("stocks", &bad, &[]);
+    assert_refused(
+        &o,
+        "the liquid reagent's formula does not follow from its species",
+    );
+    assert!(
+        says(&o.stderr, "solute = \\\"HCl\\\"") || says(&o.stderr, "solute = \"HCl\""),
+        "{}",
+        o.stderr
+    );
+}
