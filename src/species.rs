@@ -322,7 +322,7 @@ mod tests {
             }
         );
         assert!(e.hint().contains("\"SO4^2-\""));
-        assert_eq!(parse(&"SO4^2-".to_string()).unwrap().charge, -2);
+        assert_eq!(parse("SO4^2-").unwrap().charge, -2);
     }
 
     #[test]
