@@ -5,7 +5,7 @@ use crate::error::{Error, SpecSource};
 use crate::export::cards::{self, Paper, Per};
 use crate::export::{self, Format};
 use clap::{Parser, Subcommand, ValueEnum};
-use std::io::{IsTerminal, Write};
+use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 /// Exit code: success, nothing flagged.
@@ -171,22 +171,18 @@ impl From<FormatArg> for Format {
 }
 
 fn read_spec(path: &Path) -> Result<SpecSource, Error> {
-    let text = std::fs::read_to_string(path).map_err(|source| Error::ReadSpec {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    read_named(path, "spec")
+}
+
+fn read_named(path: &Path, what: &'static str) -> Result<SpecSource, Error> {
+    let text = crate::output::read_input(path, what)?;
     Ok(SpecSource::new(path.display().to_string(), text))
 }
 
-fn emit(bytes: &[u8], output: Option<&Path>, force: bool, spec: &Path) -> Result<(), Error> {
+fn emit(bytes: &[u8], output: Option<&Path>, force: bool, inputs: &[&Path]) -> Result<(), Error> {
     match output {
-        Some(path) => crate::output::write_file(path, bytes, force, spec),
-        None => {
-            let mut out = std::io::stdout().lock();
-            // A closed pipe (e.g. `| head`) is not an error worth reporting.
-            let _ = out.write_all(bytes).and_then(|_| out.flush());
-            Ok(())
-        }
+        Some(path) => crate::output::write_file(path, bytes, force, inputs),
+        None => crate::output::write_stdout(bytes),
     }
 }
 
@@ -196,7 +192,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         Command::Plan { spec, out } => {
             let report = crate::plan(read_spec(&spec)?)?;
             let bytes = export::export(&report, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
             Ok(if report.flagged {
                 EXIT_FLAGGED
             } else {
@@ -206,7 +202,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         Command::Stocks { spec, out } => {
             let sheet = crate::stocks(read_spec(&spec)?)?;
             let bytes = export::export_stocks(&sheet, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
             Ok(EXIT_OK)
         }
         Command::Cards {
@@ -229,17 +225,18 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             let html = cards::cards(&report, per, paper);
             // Refuse before writing anything if an output would be refused.
             for p in output.iter().chain(pdf.iter()) {
+                crate::output::check_not_input(p, &[&spec])?;
                 if p.exists() && !force {
                     return Err(Error::OutputExists { path: p.clone() });
                 }
             }
             if output.is_some() || pdf.is_none() {
-                emit(&html, output.as_deref(), force, &spec)?;
+                emit(&html, output.as_deref(), force, &[&spec])?;
             }
             if let Some(pdf_path) = pdf {
                 let browser = crate::pdf::find_browser().ok_or(Error::NoBrowser)?;
                 let bytes = crate::pdf::html_to_pdf(&html, &browser)?;
-                crate::output::write_file(&pdf_path, &bytes, force, &spec)?;
+                crate::output::write_file(&pdf_path, &bytes, force, &[&spec])?;
             }
             Ok(if report.flagged {
                 EXIT_FLAGGED
@@ -253,7 +250,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             force,
         } => {
             let svg = crate::chart(read_spec(&spec)?)?;
-            emit(svg.as_bytes(), output.as_deref(), force, &spec)?;
+            emit(svg.as_bytes(), output.as_deref(), force, &[&spec])?;
             Ok(EXIT_OK)
         }
         Command::Fit {
@@ -263,13 +260,19 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             output,
             force,
         } => {
-            let times_source = read_spec(&times)?;
-            let fragment = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
-            if output.as_deref() == Some(times.as_path()) {
-                return Err(Error::OutputIsSpec { path: times });
+            if let Some(o) = &output {
+                crate::output::check_not_input(o, &[&spec, &times])?;
             }
-            emit(fragment.as_bytes(), output.as_deref(), force, &spec)?;
-            Ok(EXIT_OK)
+            let times_source = read_named(&times, "times file")?;
+            let (fragment, flagged) =
+                crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
+            emit(
+                fragment.as_bytes(),
+                output.as_deref(),
+                force,
+                &[&spec, &times],
+            )?;
+            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
         }
         Command::Design {
             spec,
@@ -277,25 +280,25 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             force,
         } => {
             let runs = crate::design(read_spec(&spec)?)?;
-            emit(runs.as_bytes(), output.as_deref(), force, &spec)?;
+            emit(runs.as_bytes(), output.as_deref(), force, &[&spec])?;
             Ok(EXIT_OK)
         }
         Command::Tune { spec } => {
             let (text, fits) = crate::tune(read_spec(&spec)?)?;
-            emit(text.as_bytes(), None, false, &spec)?;
+            emit(text.as_bytes(), None, false, &[&spec])?;
             Ok(if fits { EXIT_OK } else { EXIT_FLAGGED })
         }
         Command::Completions { shell } => {
             use clap::CommandFactory;
             let mut out = Vec::new();
             clap_complete::generate(shell, &mut Cli::command(), "clockprep", &mut out);
-            let _ = std::io::stdout().lock().write_all(&out);
+            crate::output::write_stdout(&out)?;
             Ok(EXIT_OK)
         }
         Command::Forecast { spec, out } => {
             let sheet = crate::forecast_only(read_spec(&spec)?)?;
             let bytes = export::export_forecast(&sheet, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &spec)?;
+            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
             Ok(if sheet.flagged { EXIT_FLAGGED } else { EXIT_OK })
         }
     }

@@ -68,13 +68,25 @@ pub struct SpecError {
 
 #[derive(Debug, Error, Diagnostic)]
 pub enum Error {
-    #[error("cannot read the spec {}: {source}", path.display())]
+    #[error("cannot read the {what} {}: {cause}", path.display())]
     #[diagnostic(help(
-        "check the path; specs are TOML files such as plans/maple-hollow-bromate.toml"
+        "check the path; specs are TOML files such as plans/maple-hollow-bromate.toml, times are CSV files"
     ))]
-    ReadSpec {
+    ReadInput {
+        what: &'static str,
         path: PathBuf,
-        source: std::io::Error,
+        cause: std::io::Error,
+    },
+
+    #[error("the {what} {} is not UTF-8 text: line {line}, column {column} has a byte that is not", path.display())]
+    #[diagnostic(help(
+        "save it as UTF-8 (in a spreadsheet: Save As, CSV UTF-8; in an editor: encoding UTF-8)"
+    ))]
+    NotUtf8 {
+        what: &'static str,
+        path: PathBuf,
+        line: usize,
+        column: usize,
     },
 
     #[error(transparent)]
@@ -85,15 +97,17 @@ pub enum Error {
     #[diagnostic(help("pass --force to replace it, or choose another output path"))]
     OutputExists { path: PathBuf },
 
-    #[error("refusing to write the output over the spec itself ({})", path.display())]
-    #[diagnostic(help("choose another output path with -o"))]
-    OutputIsSpec { path: PathBuf },
+    #[error("refusing to write the output over an input of this command ({} is {})", path.display(), input.display())]
+    #[diagnostic(help(
+        "choose another output path with -o; inputs are never overwritten, even with --force"
+    ))]
+    OutputIsInput { path: PathBuf, input: PathBuf },
 
-    #[error("cannot write {}: {source}", path.display())]
-    #[diagnostic(help("check that the folder exists and is writable"))]
+    #[error("cannot write {}: {cause}", path.display())]
+    #[diagnostic(help("check that the folder exists, is writable and the disk has room"))]
     WriteOutput {
         path: PathBuf,
-        source: std::io::Error,
+        cause: std::io::Error,
     },
 
     #[error("no browser to print the PDF with; the HTML was still written where asked")]

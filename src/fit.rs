@@ -20,6 +20,22 @@ use statrs::distribution::{ContinuousCDF, StudentsT};
 
 /// A studentized residual beyond this flags an outlier (common practice: about 3).
 pub const OUTLIER: f64 = 3.0;
+/// Studentized residuals are shown up to this size (a perfect fit of the others gives ∞).
+pub const STUDENTIZED_CAP: f64 = 99.0;
+/// Plausible range of a fitted order: outside it the times are more likely wrong than the
+/// chemistry (common practice: elementary steps give orders from 0 to 3; inhibition rarely
+/// below −0.5).
+pub const PLAUSIBLE_ORDERS: (f64, f64) = (-0.5, 4.0);
+/// A measured time this many times longer or shorter than the prior's forecast is flagged:
+/// a misplaced decimal point or a wrong run name (common practice).
+pub const PRIOR_RATIO: f64 = 100.0;
+/// Longest time accepted as a clock time at all: a day.
+pub const LONGEST_TIME_S: f64 = 86_400.0;
+/// The activation energy is fitted only when the trials' temperatures span at least this
+/// much (K) and the fit determines it to a relative standard error below [`EA_MAX_RSE`];
+/// otherwise the prior's Ea is kept and k is fitted at the trials' mean temperature.
+pub const EA_MIN_SPAN_K: f64 = 3.0;
+pub const EA_MAX_RSE: f64 = 0.30;
 
 /// One timed trial.
 #[derive(Debug, Clone, PartialEq)]
@@ -40,7 +56,7 @@ pub struct Ols {
     /// Standard errors (NaN without degrees of freedom).
     pub se: Vec<f64>,
     pub residuals: Vec<f64>,
-    /// Residuals divided by s√(1 − hᵢᵢ).
+    /// Externally studentized residuals, rᵢ / (s₍ᵢ₎ √(1 − hᵢᵢ)), capped at ±[`STUDENTIZED_CAP`].
     pub studentized: Vec<f64>,
     pub dof: usize,
     /// Residual standard deviation.
@@ -102,11 +118,30 @@ pub fn least_squares(x: &[Vec<f64>], y: &[f64]) -> std::result::Result<Ols, OlsE
         f64::NAN
     };
     let se = (0..p).map(|j| s * inv[(j, j)].sqrt()).collect();
+    // Externally studentized (deleted) residuals: rᵢ / (s₍ᵢ₎ √(1 − hᵢᵢ)), with s₍ᵢ₎ the
+    // residual sd of the fit without trial i. Unlike rᵢ / (s √(1 − hᵢᵢ)), which can never
+    // exceed √(n − p), these can flag a gross outlier in a small pilot. A trial that alone
+    // fixes a parameter (hᵢᵢ = 1) cannot be tested and gets 0.
     let studentized = (0..n)
         .map(|i| {
             let row = xm.row(i);
             let h = (row * &inv * row.transpose())[(0, 0)];
-            residuals[i] / (s * (1.0 - h).max(1e-12).sqrt())
+            let keep = 1.0 - h;
+            if keep < 1e-9 || dof < 2 {
+                return 0.0;
+            }
+            let r = residuals[i];
+            let s2 = ((rss - r * r / keep) / (dof - 1) as f64).max(0.0);
+            let d = (s2 * keep).sqrt();
+            if d <= 1e-300 {
+                if r.abs() <= 1e-12 {
+                    0.0
+                } else {
+                    STUDENTIZED_CAP.copysign(r)
+                }
+            } else {
+                (r / d).clamp(-STUDENTIZED_CAP, STUDENTIZED_CAP)
+            }
         })
         .collect();
     let t95 = if dof > 0 {
@@ -150,8 +185,9 @@ pub struct Residual {
     pub line: usize,
     pub time: f64,
     pub predicted: f64,
-    /// ln(t / predicted)
+    /// ln(t / predicted): positive when the trial ran slower than the fit.
     pub residual: f64,
+    /// Externally studentized, with the sign of `residual`.
     pub studentized: f64,
     pub outlier: bool,
 }
@@ -162,10 +198,15 @@ pub struct Fit {
     pub k: Estimate,
     pub t_ref: f64,
     pub orders: Vec<Order>,
-    /// J/mol; fitted when trials span two or more temperatures, else the prior's (no interval).
+    /// J/mol; fitted when the trials span [`EA_MIN_SPAN_K`] and determine it, else the prior's
+    /// (no interval).
     pub activation_energy: Option<Estimate>,
     pub ea_fitted: bool,
     pub residuals: Vec<Residual>,
+    /// How the activation energy was treated, in words.
+    pub ea_note: String,
+    /// What a person should look at before using the fit (each also sets the exit code 1).
+    pub warnings: Vec<String>,
     pub trials: usize,
     pub dof: usize,
     /// Residual standard deviation of ln t.
@@ -258,6 +299,17 @@ pub fn read_times(source: &SpecSource, spec: &Spec) -> Result<Vec<Trial>> {
                 "a measured time must be positive",
                 "not positive",
                 "check the stopwatch reading; leave out trials that did not clock",
+            ));
+        }
+        if time > LONGEST_TIME_S {
+            return Err(source.error(
+                span(time_col),
+                format!(
+                    "{} s is longer than a day: not a clock time",
+                    units::sig3(time)
+                ),
+                "too long",
+                "check the stopwatch reading and the decimal point (65.90, not 6590); times are seconds unless a unit is given",
             ));
         }
         let temperature = match temp_col
@@ -449,14 +501,11 @@ pub fn fit(
         .iter()
         .map(|t| t.temperature.unwrap_or(settings.temperature))
         .collect();
-    let mut distinct = temps.clone();
-    distinct.sort_by(f64::total_cmp);
-    distinct.dedup_by(|a, b| (*a - *b).abs() < 0.05);
-    let fit_ea = distinct.len() >= 2;
-    // With one temperature, k is fitted there; with several, at the prior's reference.
-    let t_ref = if fit_ea { term.t_ref } else { distinct[0] };
-
-    let mut orders: Vec<(String, f64)> = term
+    let mut sorted = temps.clone();
+    sorted.sort_by(f64::total_cmp);
+    let span = sorted[sorted.len() - 1] - sorted[0];
+    let mean_t = sorted.iter().sum::<f64>() / sorted.len() as f64;
+    let start: Vec<(String, f64)> = term
         .orders
         .iter()
         .map(|(s, n)| {
@@ -470,87 +519,91 @@ pub fn fit(
             )
         })
         .collect();
-    let mut ols = None;
-    let mut iterations = 0;
-    for it in 1..=30 {
-        iterations = it;
-        let unit = unit_reaction(reaction, &orders);
-        let mut x = Vec::new();
-        let mut y = Vec::new();
-        for (t, &temp) in trials.iter().zip(&temps) {
-            let kin = RunKinetics::new(&unit, &initial[t.run], spec.timing.concentration).map_err(
-                |e| {
-                    refuse(
-                        spec,
-                        &format!(
-                            "run '{}' has no clock under this rate law: {e}",
-                            spec.runs[t.run].name
-                        ),
-                        "check the run's concentrations against the timing reagent",
-                    )
-                },
-            )?;
-            // t(k = 1) = J / Π c₀^n, so ln J = ln t₁ + Σ n ln c₀.
-            let ln_j = kin.at(temp).to_colour().ln()
-                + orders.iter().map(|(s, n)| n * ln_c(t.run, s)).sum::<f64>();
-            let fixed_part: f64 = orders
-                .iter()
-                .enumerate()
-                .filter(|(j, _)| !free.contains(j))
-                .map(|(_, (s, n))| n * ln_c(t.run, s))
-                .sum();
-            let mut row = vec![1.0];
-            row.extend(free.iter().map(|&j| ln_c(t.run, &species[j])));
-            if fit_ea {
-                row.push(-(1.0 / temp - 1.0 / t_ref) / R);
-            }
-            x.push(row);
-            y.push(ln_j - t.time.ln() - fixed_part);
-        }
-        let solved = least_squares(&x, &y).map_err(|e| match e {
-            OlsError::TooFewRows => refuse(
-                spec,
-                &format!(
-                    "{} trials cannot fit {} parameters",
-                    trials.len(),
-                    x[0].len()
+    let problem = Problem {
+        spec,
+        reaction,
+        initial,
+        trials,
+        temps: &temps,
+        species: &species,
+        free: &free,
+        prior_ea: term.activation_energy,
+    };
+    // The activation energy: fitted only from a wide enough temperature span, and kept only
+    // when the data determine it; else the prior's, with k at the trials' mean temperature.
+    let c = |t: f64| t - 273.15;
+    let (solved, ea_fitted, mut ea_note) = if span >= EA_MIN_SPAN_K {
+        let s = problem.solve(start.clone(), Some(term.t_ref))?;
+        let (value, se) = (s.ols.beta[1 + free.len()], s.ols.se[1 + free.len()]);
+        if value > 0.0 && se / value < EA_MAX_RSE {
+            (
+                s,
+                true,
+                format!(
+                    "fitted from trials spanning {:.1} °C ({:.1} to {:.1} °C)",
+                    span,
+                    c(sorted[0]),
+                    c(sorted[sorted.len() - 1])
                 ),
-                "time more trials, or fix some orders with --orders",
+            )
+        } else {
+            (
+                problem.solve(start.clone(), None)?,
+                false,
+                format!(
+                    "kept from the prior: the trials' {:.1} °C span gives {:.0} ± {:.0} kJ/mol (relative standard error above {:.0} %)",
+                    span,
+                    value / 1e3,
+                    se / 1e3,
+                    EA_MAX_RSE * 100.0
+                ),
+            )
+        }
+    } else {
+        (
+            problem.solve(start.clone(), None)?,
+            false,
+            format!(
+                "kept from the prior: the trials span {:.1} °C, less than the {:.0} °C needed to fit it; k is fitted at their mean temperature",
+                span, EA_MIN_SPAN_K
             ),
-            OlsError::RankDeficient(cols) => {
-                let names: Vec<String> = cols
-                    .iter()
-                    .map(|&c| match c {
-                        0 => "k".to_string(),
-                        c if c <= free.len() => format!("the order in {}", species[free[c - 1]]),
-                        _ => "the activation energy".to_string(),
-                    })
-                    .collect();
-                refuse(
-                    spec,
-                    &format!("the timed runs cannot tell {} apart", names.join(" and ")),
-                    "vary one species at a time, or fix orders with --orders",
-                )
-            }
-        })?;
-        let mut moved = 0.0f64;
-        for (k, &j) in free.iter().enumerate() {
-            moved = moved.max((solved.beta[1 + k] - orders[j].1).abs());
-            orders[j].1 = solved.beta[1 + k];
-        }
-        ols = Some((solved, x, y));
-        if moved < 1e-10 || free.is_empty() {
-            break;
-        }
+        )
+    };
+    if term.activation_energy.is_none() && !ea_fitted {
+        ea_note = format!(
+            "none: the prior has none and the trials span {:.1} °C; k is fitted at their mean temperature",
+            span
+        );
     }
-    let (ols, _, _) = ols.expect("at least one iteration");
-    if ols.dof == 0 {
+    if !ea_fitted && span < 0.05 {
+        ea_note = format!(
+            "{} (all trials at {:.1} °C)",
+            ea_note.split(':').next().unwrap_or("kept from the prior"),
+            c(mean_t)
+        );
+    }
+    let t_ref = if ea_fitted { term.t_ref } else { mean_t };
+    if solved.ols.dof == 0 {
         return Err(refuse(
             spec,
             "as many parameters as trials: no error estimate is possible",
             "time replicates or more runs, or fix orders with --orders",
         ));
     }
+    if solved
+        .ols
+        .beta
+        .iter()
+        .chain(&solved.ols.se)
+        .any(|v| !v.is_finite())
+    {
+        return Err(refuse(
+            spec,
+            "the times give no finite fit (a time far out of range?)",
+            "check each time against the stopwatch reading; the fit needs times of the same order as the prior's forecast",
+        ));
+    }
+    let ols = &solved.ols;
     let est = |i: usize| Estimate {
         value: ols.beta[i],
         se: ols.se[i],
@@ -564,7 +617,8 @@ pub fn fit(
         low: ln_k.low.exp(),
         high: ln_k.high.exp(),
     };
-    let order_out = orders
+    let order_out: Vec<Order> = solved
+        .orders
         .iter()
         .enumerate()
         .map(|(j, (s, n))| {
@@ -591,7 +645,7 @@ pub fn fit(
             }
         })
         .collect();
-    let activation_energy = if fit_ea {
+    let activation_energy = if ea_fitted {
         Some(est(1 + free.len()))
     } else {
         term.activation_energy.map(|e| Estimate {
@@ -601,35 +655,219 @@ pub fn fit(
             high: f64::NAN,
         })
     };
-    let residuals = trials
+    let residuals: Vec<Residual> = trials
         .iter()
         .enumerate()
         .map(|(i, t)| {
+            // y = ln J − ln t: a positive OLS residual means the trial ran faster than fitted,
+            // so both residuals are turned to read as ln(measured / fitted).
             let r = ols.residuals[i];
-            // y = ln J − ln t: a positive residual means the trial ran faster than fitted.
             Residual {
                 run: spec.runs[t.run].name.clone(),
                 line: t.line,
                 time: t.time,
                 predicted: t.time * r.exp(),
                 residual: -r,
-                studentized: ols.studentized[i],
+                studentized: -ols.studentized[i],
                 outlier: ols.studentized[i].abs() > OUTLIER,
             }
         })
         .collect();
+    let mut warnings = Vec::new();
+    for r in residuals.iter().filter(|r| r.outlier) {
+        warnings.push(format!(
+            "line {}: run '{}' took {} s against {} s fitted (studentized residual {:+.1}): check that trial, or leave it out and refit",
+            r.line, r.run, units::sig3(r.time), units::sig3(r.predicted), r.studentized
+        ));
+    }
+    for o in order_out.iter().filter(|o| !o.fixed) {
+        let (lo, hi) = PLAUSIBLE_ORDERS;
+        if !(lo..=hi).contains(&o.estimate.value) {
+            warnings.push(format!(
+                "the order in {} came out as {:.2}, outside the plausible {lo} to {hi}: check the times for a misplaced decimal point or a wrong run name before using it",
+                o.species, o.estimate.value
+            ));
+        }
+    }
+    for (t, &temp) in trials.iter().zip(&temps) {
+        let Ok(kin) = RunKinetics::new(reaction, &initial[t.run], spec.timing.concentration) else {
+            continue;
+        };
+        let prior = kin.at(temp).to_colour();
+        let ratio = t.time / prior;
+        if prior.is_finite() && !(1.0 / PRIOR_RATIO..=PRIOR_RATIO).contains(&ratio) {
+            warnings.push(format!(
+                "line {}: {} s for run '{}' is {} the prior's forecast of {} s: a misplaced decimal point?",
+                t.line,
+                units::sig3(t.time),
+                spec.runs[t.run].name,
+                if ratio > 1.0 {
+                    format!("{} times", units::sig3(ratio))
+                } else {
+                    format!("1/{} of", units::sig3(1.0 / ratio))
+                },
+                units::sig3(prior)
+            ));
+        }
+    }
+    let iterations = solved.iterations;
     Ok(Fit {
         k,
         t_ref,
         orders: order_out,
         activation_energy,
-        ea_fitted: fit_ea,
+        ea_fitted,
         residuals,
+        ea_note,
+        warnings,
         trials: trials.len(),
         dof: ols.dof,
         s: ols.s,
         iterations,
     })
+}
+
+/// The least-squares problem of a fit: data, and which orders are free.
+struct Problem<'a> {
+    spec: &'a Spec,
+    reaction: &'a Reaction,
+    initial: &'a [Vec<(String, f64)>],
+    trials: &'a [Trial],
+    temps: &'a [f64],
+    species: &'a [String],
+    free: &'a [usize],
+    prior_ea: Option<f64>,
+}
+
+/// A solved fit: the least squares and the orders it settled on.
+struct Solved {
+    ols: Ols,
+    orders: Vec<(String, f64)>,
+    iterations: usize,
+}
+
+/// Most re-evaluations of J with new orders before the fit is taken as it stands.
+const MAX_ITERATIONS: usize = 30;
+
+impl Problem<'_> {
+    fn ln_c(&self, run: usize, sp: &str) -> f64 {
+        self.initial[run]
+            .iter()
+            .find(|(s, _)| s == sp)
+            .map_or(f64::NAN, |(_, c)| c.ln())
+    }
+
+    /// Fit with the activation energy as a parameter (`ea_ref` = its reference temperature),
+    /// or with the prior's Ea held and k fitted at the trials' mean temperature.
+    fn solve(&self, mut orders: Vec<(String, f64)>, ea_ref: Option<f64>) -> Result<Solved> {
+        let spec = self.spec;
+        let mean_t = self.temps.iter().sum::<f64>() / self.temps.len() as f64;
+        let mut last = None;
+        for it in 1..=MAX_ITERATIONS {
+            let unit = unit_reaction(self.reaction, &orders);
+            let mut x = Vec::new();
+            let mut y = Vec::new();
+            for (t, &temp) in self.trials.iter().zip(self.temps) {
+                let kin = RunKinetics::new(&unit, &self.initial[t.run], spec.timing.concentration)
+                    .map_err(|e| {
+                        refuse(
+                            spec,
+                            &format!(
+                                "run '{}' has no clock under this rate law: {e}",
+                                spec.runs[t.run].name
+                            ),
+                            "check the run's concentrations against the timing reagent",
+                        )
+                    })?;
+                // t(k = 1) = J / Π c₀^n, so ln J = ln t₁ + Σ n ln c₀.
+                let ln_j = kin.at(temp).to_colour().ln()
+                    + orders
+                        .iter()
+                        .map(|(s, n)| n * self.ln_c(t.run, s))
+                        .sum::<f64>();
+                let fixed_part: f64 = orders
+                    .iter()
+                    .enumerate()
+                    .filter(|(j, _)| !self.free.contains(j))
+                    .map(|(_, (s, n))| n * self.ln_c(t.run, s))
+                    .sum();
+                let mut row = vec![1.0];
+                row.extend(
+                    self.free
+                        .iter()
+                        .map(|&j| self.ln_c(t.run, &self.species[j])),
+                );
+                // ln k(T) = ln k(T_ref) − (Ea/R)(1/T − 1/T_ref).
+                let held_ea = match ea_ref {
+                    Some(t_ref) => {
+                        row.push(-(1.0 / temp - 1.0 / t_ref) / R);
+                        0.0
+                    }
+                    None => self
+                        .prior_ea
+                        .map_or(0.0, |ea| ea / R * (1.0 / temp - 1.0 / mean_t)),
+                };
+                x.push(row);
+                y.push(ln_j - t.time.ln() - fixed_part + held_ea);
+            }
+            let solved = least_squares(&x, &y).map_err(|e| self.explain(e, x[0].len()))?;
+            let mut moved = 0.0f64;
+            for (k, &j) in self.free.iter().enumerate() {
+                let next = solved.beta[1 + k];
+                if !next.is_finite() {
+                    return Err(refuse(
+                        spec,
+                        "the times give no finite fit (a time far out of range?)",
+                        "check each time against the stopwatch reading",
+                    ));
+                }
+                moved = moved.max((next - orders[j].1).abs());
+                // Keep the orders the rate law can integrate while the fit settles.
+                orders[j].1 = next.clamp(-2.0, 5.0);
+            }
+            let done = moved < 1e-10 || self.free.is_empty();
+            last = Some(Solved {
+                ols: solved,
+                orders: orders.clone(),
+                iterations: it,
+            });
+            if done {
+                break;
+            }
+        }
+        Ok(last.expect("at least one iteration"))
+    }
+
+    fn explain(&self, e: OlsError, params: usize) -> Error {
+        let spec = self.spec;
+        match e {
+            OlsError::TooFewRows => refuse(
+                spec,
+                &format!(
+                    "{} trials cannot fit {params} parameters",
+                    self.trials.len()
+                ),
+                "time more trials, or fix some orders with --orders",
+            ),
+            OlsError::RankDeficient(cols) => {
+                let names: Vec<String> = cols
+                    .iter()
+                    .map(|&c| match c {
+                        0 => "k".to_string(),
+                        c if c <= self.free.len() => {
+                            format!("the order in {}", self.species[self.free[c - 1]])
+                        }
+                        _ => "the activation energy".to_string(),
+                    })
+                    .collect();
+                refuse(
+                    spec,
+                    &format!("the timed runs cannot tell {} apart", names.join(" and ")),
+                    "vary one species at a time, or fix orders with --orders",
+                )
+            }
+        }
+    }
 }
 
 fn refuse(spec: &Spec, message: &str, help: &str) -> Error {
@@ -691,52 +929,107 @@ pub fn toml_fragment(spec: &Spec, fit: &Fit, times_name: &str) -> String {
             );
         }
     }
-    if let Some(ea) = &fit.activation_energy {
-        if fit.ea_fitted {
+    match &fit.activation_energy {
+        Some(ea) if fit.ea_fitted => {
             let _ = writeln!(
                 out,
-                "# activation energy: {:.1} ± {:.1} kJ/mol (95 % CI {:.1} to {:.1})",
+                "# activation energy: {:.1} ± {:.1} kJ/mol (95 % CI {:.1} to {:.1}), {}",
                 ea.value / 1e3,
                 ea.se / 1e3,
                 ea.low / 1e3,
-                ea.high / 1e3
+                ea.high / 1e3,
+                fit.ea_note
             );
-        } else {
-            let _ = writeln!(out, "# activation energy: {:.1} kJ/mol kept from the prior (all trials at one temperature)", ea.value / 1e3);
+        }
+        Some(ea) => {
+            let _ = writeln!(
+                out,
+                "# activation energy: {:.1} kJ/mol {}",
+                ea.value / 1e3,
+                fit.ea_note
+            );
+        }
+        None => {
+            let _ = writeln!(out, "# activation energy: {}", fit.ea_note);
         }
     }
+    // Times in ms when the trials are shorter than a second, else in s.
+    let (scale, time_unit) = if fit.residuals.iter().all(|r| r.time < 1.0) {
+        (1e3, "ms")
+    } else {
+        (1.0, "s")
+    };
     let _ = writeln!(
         out,
-        "# residuals (line, run, measured s, fitted s, studentized):"
+        "# residuals (line, run, measured {time_unit}, fitted {time_unit}, ln(measured/fitted), studentized):"
     );
     for r in &fit.residuals {
         let flag = if r.outlier { "  <- outlier" } else { "" };
         let _ = writeln!(
             out,
-            "#   {:>4}  {:<20} {:>9.2} {:>9.2} {:>+7.2}{flag}",
-            r.line, r.run, r.time, r.predicted, r.studentized
+            "#   {:>4}  {:<20} {:>10} {:>10} {:>+8.4} {:>+7.2}{flag}",
+            r.line,
+            r.run,
+            sig4(r.time * scale),
+            sig4(r.predicted * scale),
+            r.residual,
+            r.studentized
         );
     }
-    let consistent: Vec<String> = fit
-        .orders
-        .iter()
-        .map(|o| {
-            format!(
-                "{}={}",
-                o.species,
-                if o.consistent {
+    for w in &fit.warnings {
+        let _ = writeln!(out, "# WARNING: {w}");
+    }
+    let free: Vec<&Order> = fit.orders.iter().filter(|o| !o.fixed).collect();
+    if !free.is_empty() {
+        // Only values `--orders` accepts: an implausible fit is replaced by the prior's order.
+        let prior = |sp: &str| {
+            reaction.terms[0]
+                .orders
+                .iter()
+                .find(|(s, _)| s == sp)
+                .map_or(1.0, |(_, n)| *n)
+        };
+        let (lo, hi) = PLAUSIBLE_ORDERS;
+        let mut from_prior = Vec::new();
+        let rounded: Vec<String> = fit
+            .orders
+            .iter()
+            .map(|o| {
+                let v = if o.fixed {
+                    o.estimate.value
+                } else if (lo..=hi).contains(&o.nearest) {
                     o.nearest
                 } else {
-                    o.estimate.value
-                }
+                    from_prior.push(o.species.as_str());
+                    prior(&o.species)
+                };
+                format!("{}={}", o.species, units::fmt_count(v))
+            })
+            .collect();
+        if !from_prior.is_empty() {
+            let _ = writeln!(
+                out,
+                "# the fitted order in {} is implausible; the refit below holds it at the prior's value",
+                from_prior.join(", ")
+            );
+        }
+        let off: Vec<&str> = free
+            .iter()
+            .filter(|o| !o.consistent)
+            .map(|o| o.species.as_str())
+            .collect();
+        let caveat = if off.is_empty() {
+            String::new()
+        } else {
+            format!(
+                " (the interval of {} excludes its nearest whole or half value: look at the data first)",
+                off.join(", ")
             )
-        })
-        .collect();
-    if fit.orders.iter().any(|o| !o.fixed) {
+        };
         let _ = writeln!(
             out,
-            "# to refit k with whole or half orders: clockprep fit SPEC TIMES --orders {}",
-            consistent.join(",")
+            "# to refit k with the nearest whole or half orders{caveat}: clockprep fit SPEC TIMES --orders {}",
+            rounded.join(",")
         );
     }
     let _ = writeln!(

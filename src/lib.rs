@@ -150,8 +150,9 @@ pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Con
     Ok((spec, initial))
 }
 
-/// Fit the prior to measured times; returns the updated prior as a TOML fragment.
-pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<String> {
+/// Fit the prior to measured times; returns the updated prior as a TOML fragment, and
+/// whether the fit carries warnings (outliers, implausible orders, times far from the prior).
+pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<(String, bool)> {
     let (spec, initial) = initial_concentrations(source)?;
     let prior: Vec<(String, f64)> = spec
         .reaction
@@ -175,7 +176,10 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
     };
     let trials = fit::read_times(&times, &spec)?;
     let result = fit::fit(&spec, &initial, &trials, &fit::Options { fixed })?;
-    Ok(fit::toml_fragment(&spec, &result, &times.name))
+    Ok((
+        fit::toml_fragment(&spec, &result, &times.name),
+        !result.warnings.is_empty(),
+    ))
 }
 
 /// Design a run set from the spec's `[design]`; returns the runs as TOML with the expected

@@ -1,21 +1,31 @@
 //! Where the bytes go: stdout, or a file written atomically (temp file + rename) that never
-//! replaces the spec and keeps an existing file unless forced.
+//! replaces an input and keeps an existing file unless forced.
 
 use crate::error::{Error, Result};
 use std::io::Write;
 use std::path::Path;
 
-/// Write `bytes` to `path` atomically. `spec` is the input, which is never overwritten.
-pub fn write_file(path: &Path, bytes: &[u8], force: bool, spec: &Path) -> Result<()> {
-    let same = |a: &Path, b: &Path| match (a.canonicalize(), b.canonicalize()) {
-        (Ok(x), Ok(y)) => x == y,
-        _ => false,
+/// Refuse an output that is one of the command's inputs (the spec, a times file), compared
+/// by canonical path, so `./spec.toml`, `dir/../spec.toml` and a symlink to it all count.
+pub fn check_not_input(path: &Path, inputs: &[&Path]) -> Result<()> {
+    let Ok(out) = path.canonicalize() else {
+        return Ok(()); // a path that does not exist yet is no input
     };
-    if same(path, spec) {
-        return Err(Error::OutputIsSpec {
-            path: path.to_path_buf(),
-        });
+    for input in inputs {
+        if input.canonicalize().is_ok_and(|i| i == out) {
+            return Err(Error::OutputIsInput {
+                path: path.to_path_buf(),
+                input: input.to_path_buf(),
+            });
+        }
     }
+    Ok(())
+}
+
+/// Write `bytes` to `path` atomically. `inputs` (the spec, a times file) are never
+/// overwritten, whatever the flags.
+pub fn write_file(path: &Path, bytes: &[u8], force: bool, inputs: &[&Path]) -> Result<()> {
+    check_not_input(path, inputs)?;
     if path.exists() && !force {
         return Err(Error::OutputExists {
             path: path.to_path_buf(),
@@ -30,9 +40,9 @@ pub fn write_file(path: &Path, bytes: &[u8], force: bool, spec: &Path) -> Result
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_else(|| "output".into());
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let io = |source| Error::WriteOutput {
+    let io = |cause| Error::WriteOutput {
         path: path.to_path_buf(),
-        source,
+        cause,
     };
     let result = (|| {
         let mut f = std::fs::File::create(&tmp)?;
@@ -47,6 +57,40 @@ pub fn write_file(path: &Path, bytes: &[u8], force: bool, spec: &Path) -> Result
     Ok(())
 }
 
+/// Write `bytes` to standard output. A closed pipe (`| head`) is not an error; any other
+/// failure (a full disk behind a redirect) is.
+pub fn write_stdout(bytes: &[u8]) -> Result<()> {
+    let mut out = std::io::stdout().lock();
+    match out.write_all(bytes).and_then(|_| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(Error::WriteOutput {
+            path: "standard output".into(),
+            cause: e,
+        }),
+        _ => Ok(()),
+    }
+}
+
+/// Read an input file (`what` names it in messages: "spec", "times file") as UTF-8 text.
+pub fn read_input(path: &Path, what: &'static str) -> Result<String> {
+    let bytes = std::fs::read(path).map_err(|cause| Error::ReadInput {
+        what,
+        path: path.to_path_buf(),
+        cause,
+    })?;
+    String::from_utf8(bytes).map_err(|e| {
+        let good = &e.as_bytes()[..e.utf8_error().valid_up_to()];
+        let line = good.iter().filter(|&&b| b == b'\n').count() + 1;
+        let line_start = good.iter().rposition(|&b| b == b'\n').map_or(0, |p| p + 1);
+        let column = String::from_utf8_lossy(&good[line_start..]).chars().count() + 1;
+        Error::NotUtf8 {
+            what,
+            path: path.to_path_buf(),
+            line,
+            column,
+        }
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -58,17 +102,17 @@ mod tests {
         let spec = dir.join("spec.toml");
         std::fs::write(&spec, "x").unwrap();
         let out = dir.join("sheet.txt");
-        write_file(&out, b"one", false, &spec).unwrap();
+        write_file(&out, b"one", false, &[&spec]).unwrap();
         assert!(matches!(
-            write_file(&out, b"two", false, &spec),
+            write_file(&out, b"two", false, &[&spec]),
             Err(Error::OutputExists { .. })
         ));
         assert_eq!(std::fs::read(&out).unwrap(), b"one");
-        write_file(&out, b"two", true, &spec).unwrap();
+        write_file(&out, b"two", true, &[&spec]).unwrap();
         assert_eq!(std::fs::read(&out).unwrap(), b"two");
         assert!(matches!(
-            write_file(&spec, b"x", true, &spec),
-            Err(Error::OutputIsSpec { .. })
+            write_file(&spec, b"x", true, &[&spec]),
+            Err(Error::OutputIsInput { .. })
         ));
         assert_eq!(
             std::fs::read_dir(&dir).unwrap().count(),

@@ -111,7 +111,7 @@ fn never_overwrites_the_spec() {
         .arg(&spec)
         .assert()
         .code(2)
-        .stderr(predicate::str::contains("over the spec"));
+        .stderr(predicate::str::contains("over an input"));
     assert_eq!(std::fs::read_to_string(&spec).unwrap(), DEMO);
 }
 

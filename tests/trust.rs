@@ -248,3 +248,145 @@ fn a_concentrate_whose_species_do_not_fix_the_formula_asks_for_the_solute() {
         o.stderr
     );
 }
+
+const PILOT: &str = include_str!("../plans/maple-hollow-pilot.csv");
+
+fn fit(csv: &str, args: &[&str]) -> Outcome {
+    let mut all = vec!["times.csv"];
+    all.extend_from_slice(args);
+    run_with("fit", BROMATE, &[("times.csv", csv)], &all)
+}
+
+#[test]
+fn fit_flags_a_gross_outlier_in_a_six_trial_pilot() {
+    // "1337" typed for 133.7 in a pilot of six trials: internally studentized residuals can
+    // never exceed √(n − p) = √2 here; the deleted residual does.
+    let csv = "run,time,temperature\nreference,131.7,21.0\nreference,1337,21.0\niodide x2,65.9,21.0\nbromate x2,64.9,21.0\nacid x2,33.7,21.0\nacid x1.5,59.9,21.0\n";
+    let o = fit(csv, &[]);
+    assert_eq!(o.code, 1, "{}{}", o.stdout, o.stderr);
+    let line = o.stdout.lines().find(|l| l.contains("  1337 ")).unwrap();
+    assert!(line.contains("<- outlier"), "{line}");
+    assert!(
+        o.stdout.contains("WARNING: line 3: run 'reference'"),
+        "{}",
+        o.stdout
+    );
+}
+
+#[test]
+fn fit_flags_a_time_typed_without_its_decimal_point() {
+    let csv = PILOT.replacen("iodide x2,65.9", "iodide x2,6590", 1);
+    let o = fit(&csv, &[]);
+    assert_eq!(o.code, 1, "{}{}", o.stdout, o.stderr);
+    assert!(
+        says(
+            &o.stdout,
+            "6590 s for run 'iodide x2' is 124 times the prior's forecast"
+        ),
+        "{}",
+        o.stdout
+    );
+    assert!(
+        says(&o.stdout, "outside the plausible -0.5 to 4"),
+        "{}",
+        o.stdout
+    );
+}
+
+#[test]
+fn fit_refit_hint_lists_whole_or_half_orders_that_are_accepted_when_pasted() {
+    let csv = PILOT.replacen("iodide x2,65.9", "iodide x2,6590", 1);
+    let o = fit(&csv, &[]);
+    let hint = o
+        .stdout
+        .lines()
+        .find(|l| l.contains("--orders "))
+        .expect("a refit hint");
+    let orders = hint.rsplit("--orders ").next().unwrap().trim();
+    for part in orders.split(',') {
+        let v: f64 = part.split('=').nth(1).unwrap().parse().unwrap();
+        assert_eq!(
+            (v * 2.0).fract(),
+            0.0,
+            "{part} is not a whole or half order"
+        );
+    }
+    let again = fit(&csv, &["--orders", orders]);
+    assert_ne!(again.code, 2, "{}", again.stderr);
+}
+
+#[test]
+fn fit_refuses_a_time_longer_than_a_day_instead_of_hanging() {
+    let csv = PILOT.replacen("iodide x2,65.9", "iodide x2,1e308", 1);
+    let o = fit(&csv, &[]);
+    assert_eq!(o.code, 2, "{}", o.stderr);
+    assert!(says(&o.stderr, "longer than a day"), "{}", o.stderr);
+    assert!(
+        located(&o.stderr, &o.dir.path().join("times.csv")) || o.stderr.contains("times.csv:4:"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
+fn fit_keeps_the_prior_activation_energy_over_a_narrow_temperature_spread() {
+    // The demo pilot with half its trials at 21.6 °C: a 0.6 °C spread cannot determine Ea.
+    let mut csv = String::from("run,time,temperature\n");
+    for (i, line) in PILOT.lines().skip(1).enumerate() {
+        let t = if i % 2 == 0 { "21.0" } else { "21.6" };
+        let (head, _) = line.rsplit_once(',').unwrap();
+        csv.push_str(&format!("{head},{t}\n"));
+    }
+    let o = fit(&csv, &[]);
+    assert_eq!(o.code, 0, "{}{}", o.stdout, o.stderr);
+    assert!(
+        says(
+            &o.stdout,
+            "kept from the prior: the trials span 0.6 °C, less than the 3 °C"
+        ),
+        "{}",
+        o.stdout
+    );
+    // The bromate preset's 54 kJ/mol stays, and k is given at the mean temperature, 21.3 °C.
+    assert!(
+        o.stdout.contains("activation_energy = \"54.0 kJ/mol\""),
+        "{}",
+        o.stdout
+    );
+    assert!(o.stdout.contains("at = \"294.45 K\""), "{}", o.stdout);
+}
+
+#[test]
+fn fit_residual_signs_match_the_measured_and_fitted_columns() {
+    let o = fit(PILOT, &[]);
+    for line in o.stdout.lines().filter(|l| l.contains("reference ")) {
+        let cols: Vec<&str> = line.split_whitespace().collect();
+        // #, line, run, measured, fitted, ln ratio, studentized
+        let n = cols.len();
+        let (measured, fitted): (f64, f64) =
+            (cols[n - 4].parse().unwrap(), cols[n - 3].parse().unwrap());
+        let (ln_ratio, stud): (f64, f64) =
+            (cols[n - 2].parse().unwrap(), cols[n - 1].parse().unwrap());
+        assert_eq!(measured > fitted, ln_ratio > 0.0, "{line}");
+        assert_eq!(ln_ratio > 0.0, stud > 0.0, "{line}");
+    }
+}
+
+#[test]
+fn fit_residuals_of_millisecond_times_are_shown_in_ms() {
+    let csv: String = PILOT
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            if i == 0 {
+                return format!("{l}\n");
+            }
+            let f: Vec<&str> = l.split(',').collect();
+            let ms: f64 = f[1].parse::<f64>().unwrap() / 1000.0;
+            format!("{},{ms},{}\n", f[0], f[2])
+        })
+        .collect();
+    let o = fit(&csv, &[]);
+    assert!(o.stdout.contains("measured ms, fitted ms"), "{}", o.stdout);
+    assert!(o.stdout.contains(" 131.7 "), "{}", o.stdout);
+}
