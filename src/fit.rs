@@ -1100,14 +1100,7 @@ pub fn toml_fragment(spec: &Spec, fit: &Fit, times_name: &str) -> String {
 }
 
 fn sig4(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return format!("{v}");
-    }
-    let mag = v.abs().log10().floor() as i32;
-    if !(-3..6).contains(&mag) {
-        return format!("{v:.3e}");
-    }
-    format!("{:.*}", (3 - mag).max(0) as usize, v)
+    units::sig(v, 4)
 }
 
 #[cfg(test)]

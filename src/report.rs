@@ -178,6 +178,10 @@ pub struct StockTotal {
     pub ml: f64,
     #[serde(rename = "used_mL")]
     pub used_ml: f64,
+    /// One replicate set: every run done once.
+    #[serde(rename = "one_set_mL")]
+    pub one_set_ml: f64,
+    /// What one station uses: every run × replicates (before overage).
     #[serde(rename = "per_station_mL")]
     pub per_station_ml: f64,
     #[serde(rename = "flask_mL")]
@@ -300,7 +304,10 @@ fn deviation(d: f64) -> f64 {
 
 /// Ten significant figures: removes float noise, keeps every digit that means anything.
 fn sig10(v: f64) -> f64 {
-    if v == 0.0 || !v.is_finite() {
+    if v == 0.0 {
+        return 0.0; // never -0
+    }
+    if !v.is_finite() {
         return v;
     }
     format!("{v:.9e}").parse().unwrap_or(v)
@@ -470,20 +477,18 @@ pub fn build(
                     }
                 })
                 .collect();
-            let w = r.water();
-            let in_a = portions.a.items.iter().any(|i| i.0.is_none());
-            let in_b = portions.b.items.iter().any(|i| i.0.is_none());
-            volumes.push(Volume {
-                stock: "water".into(),
-                ml: ml(w.volume),
-                device: w.delivery.describe(&spec.devices),
-                vessel: match (in_a, in_b) {
-                    (true, true) => "A+B".into(),
-                    (true, false) => "A".into(),
-                    (false, true) => "B".into(),
-                    (false, false) => "-".into(),
-                },
-            });
+            // Water as it is delivered: one row per portion that gets some, with that
+            // portion's device (the same deliveries as the mixing sheet).
+            for (label, portion) in [("A", &portions.a), ("B", &portions.b)] {
+                for (_, v, d) in portion.items.iter().filter(|i| i.0.is_none()) {
+                    volumes.push(Volume {
+                        stock: "water".into(),
+                        ml: ml(*v),
+                        device: d.describe(&spec.devices),
+                        vessel: label.into(),
+                    });
+                }
+            }
             RunReport {
                 name: run.name.clone(),
                 note: run.note.clone(),
@@ -609,7 +614,8 @@ pub fn build(
                 stock: name(Some(t.stock)),
                 ml: ml(t.need),
                 used_ml: ml(t.used),
-                per_station_ml: ml(t.per_station_set),
+                one_set_ml: ml(t.per_station_set),
+                per_station_ml: ml(t.per_station_set * spec.replicates as f64),
                 flask_ml: ml(t.flask),
                 flask_count: t.flask_count,
             })
@@ -783,6 +789,35 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> Stock
         overage_pct: sig10(spec.overage * 100.0),
         stocks,
         cautions: safety::cautions(used),
+    }
+}
+
+impl PlanReport {
+    /// Columns of the volumes-per-run overview: the stocks as the runs list them, water last.
+    pub fn volume_columns(&self) -> Vec<&str> {
+        let mut cols: Vec<&str> = Vec::new();
+        for v in self.runs.iter().flat_map(|r| &r.volumes) {
+            if !cols.contains(&v.stock.as_str()) {
+                cols.push(&v.stock);
+            }
+        }
+        if let Some(i) = cols.iter().position(|c| *c == "water") {
+            let w = cols.remove(i);
+            cols.push(w);
+        }
+        cols
+    }
+}
+
+impl RunReport {
+    /// mL of one stock (or "water", summed over both portions) in this run.
+    pub fn volume_of(&self, stock: &str) -> f64 {
+        ml(self
+            .volumes
+            .iter()
+            .filter(|v| v.stock == stock)
+            .map(|v| v.ml)
+            .sum())
     }
 }
 

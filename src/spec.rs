@@ -781,6 +781,15 @@ impl Checker<'_> {
         let flasks = match &plan.flasks {
             None => DEFAULT_FLASKS_ML.iter().map(|v| v * 1e-3).collect(),
             Some(list) => {
+                if list.is_empty() {
+                    let at = raw.plan.span().start;
+                    return Err(self.err(
+                        at..at + "[plan]".len(),
+                        "[plan] flasks is an empty list",
+                        "no flask sizes",
+                        "list the volumetric flasks on the shelf, e.g. flasks = [\"100 mL\", \"250 mL\", \"1 L\"], or leave the key out for 50, 100, 250, 500 and 1000 mL",
+                    ));
+                }
                 let mut out = Vec::new();
                 for q in list {
                     out.push(self.positive(q, Kind::Volume, "flasks")?);
@@ -1722,6 +1731,14 @@ impl Checker<'_> {
                 ));
             }
             let t_ref = tc.qty(&t.at, Kind::Temperature, "at")?;
+            if !(273.15..=333.15).contains(&t_ref) {
+                return Err(tc.err(
+                    inner(t.at.span(), &tc.src.text),
+                    format!("at = {} °C is outside 0–60 °C", units::sig3(t_ref - 273.15)),
+                    "out of range",
+                    "give k at a temperature of the teaching lab, e.g. at = \"25 °C\"",
+                ));
+            }
             let activation_energy = match &t.activation_energy {
                 None => None,
                 Some(q) => {

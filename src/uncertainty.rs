@@ -172,9 +172,11 @@ pub fn propagate(spec: &Spec, run: &RunSolution) -> RunUncertainty {
         let stock: f64 = share.iter().map(|w| (w * u_stock).powi(2)).sum();
         (vol + stock).sqrt()
     };
+    // A species the run does not deliver has no relative uncertainty.
     let species: Vec<(String, f64)> = run
         .concentrations
         .iter()
+        .filter(|(_, c)| *c > 0.0)
         .map(|(sp, _)| {
             let (d_v, share) = partials(sp);
             (sp.clone(), combine(&d_v, &share))

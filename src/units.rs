@@ -378,7 +378,7 @@ pub fn concentration(molar: f64) -> String {
     format!("{} {u}", sig3(v))
 }
 
-/// Three significant figures, without scientific notation for lab-sized numbers (1e-3 up to
+/// Three significant figures, without scientific notation for lab-sized numbers (1e-4 up to
 /// 1e6); outside that, "1.23e8". Never "-0".
 pub fn sig3(v: f64) -> String {
     sig(v, 3)
@@ -396,7 +396,7 @@ pub fn sig(v: f64, figures: i32) -> String {
         };
     }
     let mag = v.abs().log10().floor() as i32;
-    let out = if !(-3..6).contains(&mag) {
+    let out = if !(-4..6).contains(&mag) {
         format!("{:.*e}", (figures - 1).max(0) as usize, v)
     } else {
         let decimals = (figures - 1 - mag).max(0) as usize;

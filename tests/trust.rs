@@ -390,3 +390,129 @@ fn fit_residuals_of_millisecond_times_are_shown_in_ms() {
     assert!(o.stdout.contains("measured ms, fitted ms"), "{}", o.stdout);
     assert!(o.stdout.contains(" 131.7 "), "{}", o.stdout);
 }
+
+#[test]
+fn a_species_the_run_does_not_deliver_has_no_uncertainty_and_no_negative_zero() {
+    let o = run("plan", BROMATE, &["-f", "json"]);
+    assert!(!o.stdout.contains("-0.0"), "a negative zero in the JSON");
+    let report = json(&o.stdout);
+    let run = &report["runs"][3]; // "acid x2" needs no KNO3
+    assert_eq!(run["concentrations"]["NO3-"], 0.0);
+    assert!(
+        run["uncertainty"].get("NO3-").is_none(),
+        "{}",
+        run["uncertainty"]
+    );
+    let text = run_with("plan", BROMATE, &[], &[]).stdout;
+    let row = text
+        .lines()
+        .filter(|l| l.trim_start().starts_with("NO3-"))
+        .find(|l| l.contains(" 0.000 "))
+        .expect("a run without nitrate");
+    assert!(row.trim_end().ends_with('-'), "{row}");
+}
+
+#[test]
+fn every_format_carries_the_deliveries_of_the_mixing_sheet() {
+    let report = json(&run("plan", BROMATE, &["-f", "json"]).stdout);
+    let csv = run("plan", BROMATE, &["-f", "csv"]).stdout;
+    for r in report["runs"].as_array().unwrap() {
+        // The portions are what the sheet tells a person to pour.
+        let mut poured: Vec<(String, String, String, String)> = Vec::new();
+        for vessel in ["A", "B"] {
+            for item in r["portions"][vessel].as_array().unwrap() {
+                poured.push((
+                    item["stock"].as_str().unwrap().into(),
+                    vessel.into(),
+                    item["mL"].to_string(),
+                    item["device"].as_str().unwrap().into(),
+                ));
+            }
+        }
+        let mut listed: Vec<(String, String, String, String)> = r["volumes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|v| v["mL"].as_f64().unwrap() > 0.0)
+            .map(|v| {
+                (
+                    v["stock"].as_str().unwrap().into(),
+                    v["vessel"].as_str().unwrap().into(),
+                    v["mL"].to_string(),
+                    v["device"].as_str().unwrap().into(),
+                )
+            })
+            .collect();
+        let name = r["name"].as_str().unwrap();
+        let mut in_csv: Vec<(String, String, String, String)> = csv
+            .lines()
+            .filter(|l| l.starts_with(&format!("{name},volume,")))
+            .map(|l| l.split(',').collect::<Vec<_>>())
+            .filter(|c| c[4] != "0")
+            .map(|c| {
+                (
+                    c[2].into(),
+                    c[3].into(),
+                    format!("{:?}", c[4].parse::<f64>().unwrap()),
+                    c[5].into(),
+                )
+            })
+            .collect();
+        poured.sort();
+        listed.sort();
+        in_csv.sort();
+        assert_eq!(poured, listed, "run {name}: JSON volumes vs portions");
+        let poured_csv: Vec<_> = poured
+            .iter()
+            .map(|(s, v, ml, d)| {
+                (
+                    s.clone(),
+                    v.clone(),
+                    format!("{:?}", ml.parse::<f64>().unwrap()),
+                    d.clone(),
+                )
+            })
+            .collect();
+        assert_eq!(poured_csv, in_csv, "run {name}: CSV volumes vs portions");
+    }
+}
+
+#[test]
+fn per_station_volume_is_what_one_station_uses_over_its_replicates() {
+    let report = json(&run("plan", BROMATE, &["-f", "json"]).stdout);
+    let replicates = report["replicates"].as_f64().unwrap();
+    let stations = report["stations"].as_f64().unwrap();
+    for t in report["stock_totals"].as_array().unwrap() {
+        let one = t["one_set_mL"].as_f64().unwrap();
+        approx::assert_relative_eq!(t["per_station_mL"].as_f64().unwrap(), one * replicates);
+        approx::assert_relative_eq!(t["used_mL"].as_f64().unwrap(), one * replicates * stations);
+    }
+}
+
+#[test]
+fn a_reference_temperature_above_60_c_is_refused() {
+    let o = run(
+        "forecast",
+        &edit(
+            BROMATE,
+            "preset = \"bromate-iodide\"",
+            "preset = \"bromate-iodide\"\n[[reaction.term]]\nk = \"40 M^-3 s^-1\"\nat = \"75 °C\"\norders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }",
+        ),
+        &[],
+    );
+    assert_refused(&o, "at = 75.0 °C is outside 0–60 °C");
+}
+
+#[test]
+fn an_empty_flask_list_is_refused() {
+    let o = run(
+        "stocks",
+        &edit(
+            BROMATE,
+            "tolerance = \"1 %\"",
+            "tolerance = \"1 %\"\nflasks = []",
+        ),
+        &[],
+    );
+    assert_refused(&o, "flasks is an empty list");
+}

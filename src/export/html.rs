@@ -126,13 +126,13 @@ impl Exporter for Html {
             table {
                 tr {
                     th { "run" }
-                    @for vol in &r.runs[0].volumes { th.n { (vol.stock) } }
+                    @for col in r.volume_columns() { th.n { (col) } }
                     @if r.reaction.is_some() { th.n { "predicted (s)" } }
                 }
                 @for run in &r.runs {
                     tr {
                         td { (run.name) }
-                        @for vol in &run.volumes { td.n { (v(vol.ml)) } }
+                        @for col in r.volume_columns() { td.n { (v(run.volume_of(col))) } }
                         @if r.reaction.is_some() {
                             td.n { (run.forecast.as_ref().and_then(|f| f.time_s).map_or("-".into(), |t| format!("{t:.1}"))) }
                         }
@@ -171,11 +171,11 @@ impl Exporter for Html {
             }
             h2 { "Stock to prepare" }
             table {
-                tr { th { "stock" } th.n { "one set (mL)" } th.n { "whole lab (mL)" } th.n { "prepare (mL)" } th { "flask" } }
+                tr { th { "stock" } th.n { "one set (mL)" } th.n { "per station (mL)" } th.n { "whole lab (mL)" } th.n { "prepare (mL)" } th { "flask" } }
                 @for t in &r.stock_totals {
-                    tr { td { (t.stock) } td.n { (format!("{:.1}", t.per_station_ml)) } td.n { (format!("{:.1}", t.used_ml)) } td.n { (format!("{:.1}", t.ml)) } td { (t.flask_count) " × " (t.flask_ml) " mL" } }
+                    tr { td { (t.stock) } td.n { (format!("{:.1}", t.one_set_ml)) } td.n { (format!("{:.1}", t.per_station_ml)) } td.n { (format!("{:.1}", t.used_ml)) } td.n { (format!("{:.1}", t.ml)) } td { (t.flask_count) " × " (t.flask_ml) " mL" } }
                 }
-                tr { td { "water (make-up)" } td {} td.n { (format!("{:.1}", r.water_total_ml)) } td {} td {} }
+                tr { td { "water (make-up)" } td {} td {} td.n { (format!("{:.1}", r.water_total_ml)) } td {} td {} }
             }
             @if let (Some(re), Some(s)) = (&r.reaction, &r.forecast_settings) { (prior(re, s)) }
             (cautions(&r.cautions))

@@ -160,11 +160,8 @@ impl Exporter for Markdown {
         flags(&mut out, &report.warnings);
 
         let _ = writeln!(out, "## Volumes per run (mL)\n");
-        let mut stocks: Vec<String> = report.runs[0]
-            .volumes
-            .iter()
-            .map(|v| esc(&v.stock))
-            .collect();
+        let columns = report.volume_columns();
+        let mut stocks: Vec<String> = columns.iter().map(|s| esc(s)).collect();
         let forecast = report.reaction.is_some();
         if forecast {
             stocks.push("predicted (s)".into());
@@ -172,10 +169,9 @@ impl Exporter for Markdown {
         let _ = writeln!(out, "| run | {} |", stocks.join(" | "));
         let _ = writeln!(out, "|---|{}", "---:|".repeat(stocks.len()));
         for r in &report.runs {
-            let mut cells: Vec<String> = r
-                .volumes
+            let mut cells: Vec<String> = columns
                 .iter()
-                .map(|v| format!("{:.*}", dec, v.ml))
+                .map(|s| format!("{:.*}", dec, r.volume_of(s)))
                 .collect();
             if forecast {
                 cells.push(
@@ -250,12 +246,13 @@ impl Exporter for Markdown {
         }
 
         let _ = writeln!(out, "## Stock to prepare\n");
-        let _ = writeln!(out, "| stock | one set (mL) | whole lab (mL) | prepare (mL) | flask |\n|---|---:|---:|---:|---|");
+        let _ = writeln!(out, "| stock | one set (mL) | per station (mL) | whole lab (mL) | prepare (mL) | flask |\n|---|---:|---:|---:|---:|---|");
         for t in &report.stock_totals {
             let _ = writeln!(
                 out,
-                "| {} | {:.1} | {:.1} | {:.1} | {} × {} mL |",
+                "| {} | {:.1} | {:.1} | {:.1} | {:.1} | {} × {} mL |",
                 esc(&t.stock),
+                t.one_set_ml,
                 t.per_station_ml,
                 t.used_ml,
                 t.ml,
@@ -265,7 +262,7 @@ impl Exporter for Markdown {
         }
         let _ = writeln!(
             out,
-            "| water (make-up) | | {:.1} | | |\n",
+            "| water (make-up) | | | {:.1} | | |\n",
             report.water_total_ml
         );
 

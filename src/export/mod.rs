@@ -68,9 +68,7 @@ pub(crate) fn sig(v: f64, n: i32) -> String {
     if v == 0.0 {
         return format!("{:.*}", (n - 1).max(0) as usize, 0.0);
     }
-    let mag = v.abs().log10().floor() as i32;
-    let decimals = (n - 1 - mag).max(0) as usize;
-    format!("{:.*}", decimals, v)
+    crate::units::sig(v, n)
 }
 
 /// Decimal places that show every volume of the plan exactly (at least 2, at most 3).
@@ -99,5 +97,9 @@ mod tests {
         assert_eq!(sig(150.0, 3), "150");
         assert_eq!(sig(0.0123, 3), "0.0123");
         assert_eq!(sig(0.0, 3), "0.00");
+        // Regression: a huge value printed as a 300-digit number.
+        assert_eq!(sig(1.5e300, 3), "1.50e300");
+        assert_eq!(sig(-0.0001, 1), "-0.0001");
+        assert_eq!(sig(-1e-12, 2), "-1.0e-12");
     }
 }

@@ -361,18 +361,14 @@ impl Exporter for Text {
 
         heading(&mut out, "Volumes per run (mL)");
         let mut headers: Vec<&str> = vec!["run"];
-        let stocks: Vec<&str> = report.runs[0]
-            .volumes
-            .iter()
-            .map(|v| v.stock.as_str())
-            .collect();
+        let stocks = report.volume_columns();
         headers.extend(stocks.iter().copied());
         let rows: Vec<Vec<String>> = report
             .runs
             .iter()
             .map(|r| {
                 let mut row = vec![r.name.clone()];
-                row.extend(r.volumes.iter().map(|v| format!("{:.*}", dec, v.ml)));
+                row.extend(stocks.iter().map(|s| format!("{:.*}", dec, r.volume_of(s))));
                 row
             })
             .collect();
@@ -411,6 +407,7 @@ impl Exporter for Text {
             .map(|t| {
                 vec![
                     t.stock.clone(),
+                    format!("{:.1}", t.one_set_ml),
                     format!("{:.1}", t.per_station_ml),
                     format!("{:.1}", t.used_ml),
                     format!("{:.1}", t.ml),
@@ -421,6 +418,7 @@ impl Exporter for Text {
         rows.push(vec![
             "water (make-up)".into(),
             String::new(),
+            String::new(),
             format!("{:.1}", report.water_total_ml),
             String::new(),
             String::new(),
@@ -430,12 +428,14 @@ impl Exporter for Text {
             &[
                 "stock",
                 "one set (mL)",
+                "per station (mL)",
                 "whole lab (mL)",
                 "prepare (mL)",
                 "flask",
             ],
             &[
                 Align::Left,
+                Align::Right,
                 Align::Right,
                 Align::Right,
                 Align::Right,
