@@ -105,18 +105,27 @@ pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast>
             let fast = kin.at(warm).to_colour();
             let slow = kin.at(cool).to_colour();
             let time = at.to_colour();
+            // Each flag quotes the time at the temperature it names.
             if fast < short {
-                let when = if time < short { format!("at {}", celsius(t)) } else { format!("at the warm end of the band ({})", celsius(warm)) };
+                let quoted = if time < short {
+                    format!("{} at {} ({} at the warm end, {})", seconds(time), celsius(t), seconds(fast), celsius(warm))
+                } else {
+                    format!("{} at the warm end of the band ({})", seconds(fast), celsius(warm))
+                };
                 warnings.push(Flag {
                     code: "too_fast",
-                    message: format!("predicted {} {when}, under the {} that can be timed well; use less timing reagent or more dilute reactants", seconds(fast.min(time)), seconds(short)),
+                    message: format!("predicted {quoted}, under the {} that can be timed well; use more timing reagent (a longer wait) or more dilute reactants", seconds(short)),
                 });
             }
             if slow > long {
-                let when = if time > long { format!("at {}", celsius(t)) } else { format!("at the cool end of the band ({})", celsius(cool)) };
+                let quoted = if time > long {
+                    format!("{} at {} ({} at the cool end, {})", seconds(time), celsius(t), seconds(slow), celsius(cool))
+                } else {
+                    format!("{} at the cool end of the band ({})", seconds(slow), celsius(cool))
+                };
                 warnings.push(Flag {
                     code: "too_slow",
-                    message: format!("predicted {} {when}, over the {} window; use less timing reagent or more concentrated reactants", seconds(slow.max(time)), seconds(long)),
+                    message: format!("predicted {quoted}, over the {} window; use less timing reagent (a shorter wait) or more concentrated reactants", seconds(long)),
                 });
             }
             out.conversions = kin.conversions().map(|(s, c)| (s.to_string(), c)).collect();

@@ -247,10 +247,17 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
     for a in &t.advice {
         let _ = writeln!(out, "\n{a}");
     }
-    let _ = writeln!(
-        out,
-        "\nSet [timing] concentration = \"{}\", then run clockprep plan to check that the timing stock volume is deliverable. Predicted times are estimates from a prior, not guarantees.",
-        units::concentration(t.concentration)
-    );
+    if t.margin >= 0.0 {
+        let _ = writeln!(
+            out,
+            "\nSet [timing] concentration = \"{}\", then run clockprep plan to check that the timing stock volume is deliverable. Predicted times are estimates from a prior, not guarantees.",
+            units::concentration(t.concentration)
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "\nNo timing concentration fits these runs as they stand: change the runs as advised, then run clockprep tune again. Predicted times are estimates from a prior, not guarantees."
+        );
+    }
     Ok((out, t.margin >= 0.0))
 }

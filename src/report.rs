@@ -793,6 +793,16 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> Stock
 }
 
 impl PlanReport {
+    /// Runs that carry a flag of their own or a forecast warning.
+    pub fn runs_needing_a_look(&self) -> usize {
+        self.runs
+            .iter()
+            .filter(|r| {
+                !r.flags.is_empty() || r.forecast.as_ref().is_some_and(|f| !f.warnings.is_empty())
+            })
+            .count()
+    }
+
     /// Columns of the volumes-per-run overview: the stocks as the runs list them, water last.
     pub fn volume_columns(&self) -> Vec<&str> {
         let mut cols: Vec<&str> = Vec::new();

@@ -210,13 +210,24 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
             "raise total_volume, lower the fixed volumes, or use a more concentrated timing stock",
         ));
     }
+    // A timing volume within TIMING_SNAP of a deliverable one is that one: the stated
+    // concentration was rounded (e.g. pasted from a suggestion below).
+    let (below, above) = nearest_deliverable(v_timing, &stock.devices, &spec.devices);
+    let v_timing = [below, above]
+        .into_iter()
+        .flatten()
+        .find(|v| {
+            find_delivery(v_timing, &stock.devices, &spec.devices).is_none()
+                && ((v - v_timing) / v_timing).abs() <= TIMING_SNAP
+        })
+        .unwrap_or(v_timing);
     let delivery = find_delivery(v_timing, &stock.devices, &spec.devices).ok_or_else(|| {
-        let (below, above) = nearest_deliverable(v_timing, &stock.devices, &spec.devices);
         let mut options = Vec::new();
         for v in [below, above].into_iter().flatten() {
+            // Six figures, so that the value pasted back lands within TIMING_SNAP.
             options.push(format!(
                 "concentration = \"{}\" ({} mL)",
-                units::concentration(v * c_stock / spec.total_volume),
+                units::concentration_figures(v * c_stock / spec.total_volume, 6),
                 trim_ml(v)
             ));
         }
@@ -274,6 +285,10 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     let volume = additions.iter().map(|a| a.volume).sum();
     Ok(Constant { additions, volume })
 }
+
+/// Relative distance within which a timing volume is taken as the deliverable volume next to
+/// it: 1e-5, far inside any tolerance, and wider than the rounding of a six-figure value.
+pub const TIMING_SNAP: f64 = 1e-5;
 
 /// A volume in mL without trailing zeros, for messages ("0.37", "3", "12.5").
 fn trim_ml(litres: f64) -> String {

@@ -85,20 +85,17 @@ fn conversion_limit(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<f64, 
 }
 
 /// Find the best timing concentration.
-pub fn tune(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<Tuning, NoTuning> {
-    let limit = conversion_limit(spec, initial)?;
-    let (short, long) = spec.forecast.as_ref().expect("settings").window;
+/// The timing concentration with the most margin, and that margin (ln; ≥ 0 fits).
+fn best_concentration(spec: &Spec, initial: &[Vec<(String, f64)>], limit: f64) -> (f64, f64) {
     let score = |ln_c: f64| {
         times(spec, initial, ln_c.exp()).map_or(f64::NEG_INFINITY, |r| margin(spec, &r))
     };
-    // Golden-section search on ln c over six decades below the limit; the margin rises and then
-    // falls with c (faster runs gain, slower runs lose), so it is unimodal.
     let (mut a, mut b) = (limit.ln() - 6.0 * std::f64::consts::LN_10, limit.ln());
     let g = (5f64.sqrt() - 1.0) / 2.0;
     let mut c1 = b - g * (b - a);
     let mut c2 = a + g * (b - a);
     let (mut f1, mut f2) = (score(c1), score(c2));
-    for _ in 0..120 {
+    for _ in 0..GOLDEN_STEPS {
         if f1 < f2 {
             a = c1;
             c1 = c2;
@@ -113,94 +110,154 @@ pub fn tune(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<Tuning, NoTun
             f1 = score(c1);
         }
     }
-    let best = if f1 >= f2 { c1 } else { c2 };
-    // The limit itself may be best (every run still too slow below it).
-    let best = if score(limit.ln()) > score(best) {
-        limit.ln()
+    let (best, at_best) = if f1 >= f2 { (c1, f1) } else { (c2, f2) };
+    let at_limit = score(limit.ln());
+    if at_limit > at_best {
+        (limit, at_limit)
     } else {
-        best
+        (best.exp(), at_best)
+    }
+}
+
+/// Golden-section steps over six decades of concentration: 120 narrow it to about 1e-24 in ln.
+const GOLDEN_STEPS: usize = 120;
+
+/// The run set with the multipliers of `species` narrowed: each concentration c becomes
+/// g·(c/g)^α, g the geometric mean of that species over the runs, rounded to three figures.
+fn narrowed(
+    initial: &[Vec<(String, f64)>],
+    species: &[String],
+    alpha: f64,
+) -> Vec<Vec<(String, f64)>> {
+    let mut out = initial.to_vec();
+    for sp in species {
+        let logs: Vec<f64> = initial
+            .iter()
+            .filter_map(|c| c.iter().find(|(s, _)| s == sp).map(|(_, v)| v.ln()))
+            .collect();
+        if logs.is_empty() {
+            continue;
+        }
+        let g = logs.iter().sum::<f64>() / logs.len() as f64;
+        for run in &mut out {
+            if let Some(e) = run.iter_mut().find(|(s, _)| s == sp) {
+                let v = (g + alpha * (e.1.ln() - g)).exp();
+                let mag = 10f64.powi(v.log10().floor() as i32 - 2);
+                e.1 = (v / mag).round() * mag;
+            }
+        }
+    }
+    out
+}
+
+/// When no timing concentration fits: the narrowing of the run set that does, found by
+/// re-running the tuning on the narrowed set (so the advice is tested before it is given).
+fn advise(
+    spec: &Spec,
+    initial: &[Vec<(String, f64)>],
+    runs: &[RunTimes],
+    limit: f64,
+) -> Vec<String> {
+    let (short, long) = spec.forecast.as_ref().expect("settings").window;
+    let fastest = runs
+        .iter()
+        .min_by(|x, y| x.fast.total_cmp(&y.fast))
+        .expect("runs");
+    let slowest = runs
+        .iter()
+        .max_by(|x, y| x.slow.total_cmp(&y.slow))
+        .expect("runs");
+    let mut advice = vec![format!(
+        "no single timing concentration fits: the runs span {:.1}x in time (from '{}' at the warm end to '{}' at the cool end), the window only {:.1}x",
+        slowest.slow / fastest.fast,
+        fastest.name,
+        slowest.name,
+        long / short
+    )];
+    // Species the runs vary, the timing species aside, most spread first.
+    let mut varied: Vec<(f64, String)> = Vec::new();
+    for (sp, _) in initial.first().map(|c| c.as_slice()).unwrap_or(&[]) {
+        if *sp == spec.timing.species {
+            continue;
+        }
+        let logs: Vec<f64> = initial
+            .iter()
+            .filter_map(|c| c.iter().find(|(s, _)| s == sp).map(|(_, v)| v.ln()))
+            .collect();
+        let spread = logs.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+            - logs.iter().cloned().fold(f64::INFINITY, f64::min);
+        if spread > 1e-9 {
+            varied.push((spread, sp.clone()));
+        }
+    }
+    varied.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+    let fits = |set: &[Vec<(String, f64)>]| {
+        let limit = conversion_limit(spec, set).unwrap_or(limit);
+        best_concentration(spec, set, limit).1 >= 0.0
     };
-    let concentration = best.exp();
+    let mut candidates: Vec<Vec<String>> = varied.iter().map(|(_, s)| vec![s.clone()]).collect();
+    if varied.len() > 1 {
+        candidates.push(varied.iter().map(|(_, s)| s.clone()).collect());
+    }
+    for group in candidates {
+        if !fits(&narrowed(initial, &group, 0.0)) {
+            continue;
+        }
+        // The widest narrowing that still fits (bisection on α, 30 steps).
+        let (mut lo, mut hi) = (0.0, 1.0);
+        for _ in 0..30 {
+            let mid = 0.5 * (lo + hi);
+            if fits(&narrowed(initial, &group, mid)) {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        let set = narrowed(initial, &group, lo);
+        let (c, _) = best_concentration(spec, &set, conversion_limit(spec, &set).unwrap_or(limit));
+        let how = if group.len() == 1 {
+            format!("narrow the spread of {} alone", group[0])
+        } else {
+            format!(
+                "no one species can close the gap: narrow {} together",
+                group.join(", ")
+            )
+        };
+        let mut changes = Vec::new();
+        for (run, (before, after)) in spec.runs.iter().zip(initial.iter().zip(&set)) {
+            let diffs: Vec<String> = after
+                .iter()
+                .zip(before)
+                .filter(|((s, a), (_, b))| group.contains(s) && (a - b).abs() > 1e-12 * b.abs())
+                .map(|((s, a), _)| format!("\"{s}\" = \"{}\"", crate::units::concentration(*a)))
+                .collect();
+            if !diffs.is_empty() {
+                changes.push(format!("'{}': {}", run.name, diffs.join(", ")));
+            }
+        }
+        advice.push(format!(
+            "{how} (multipliers to the {:.2} power), e.g. targets {}; then the timing concentration {} fits every run (checked by re-running the tuning on those targets)",
+            lo,
+            changes.join("; "),
+            crate::units::concentration(c)
+        ));
+        return advice;
+    }
+    advice.push(
+        "even identical runs would not fit: the temperature band alone spans more than the window; narrow temperature_band (control the room) or widen the window".into(),
+    );
+    advice
+}
+
+pub fn tune(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<Tuning, NoTuning> {
+    let limit = conversion_limit(spec, initial)?;
+    let (concentration, _) = best_concentration(spec, initial, limit);
     let runs = times(spec, initial, concentration)
         .ok_or_else(|| NoTuning("a run has no clock at the best concentration".into()))?;
     let m = margin(spec, &runs);
     let mut advice = Vec::new();
     if m < 0.0 {
-        let fastest = runs
-            .iter()
-            .min_by(|x, y| x.fast.total_cmp(&y.fast))
-            .expect("runs");
-        let slowest = runs
-            .iter()
-            .max_by(|x, y| x.slow.total_cmp(&y.slow))
-            .expect("runs");
-        let spread = slowest.slow / fastest.fast;
-        let window = long / short;
-        let shrink = spread / window;
-        advice.push(format!(
-            "no single timing concentration fits: the runs span {:.1}x in time (from '{}' at the warm end to '{}' at the cool end), the window only {:.1}x",
-            spread, fastest.name, slowest.name, window
-        ));
-        // Which species makes the span: compare the two extreme runs.
-        if let Some(reaction) = &spec.reaction {
-            let fi = spec
-                .runs
-                .iter()
-                .position(|r| r.name == fastest.name)
-                .expect("run");
-            let si = spec
-                .runs
-                .iter()
-                .position(|r| r.name == slowest.name)
-                .expect("run");
-            let conc = |i: usize, sp: &str| {
-                initial[i]
-                    .iter()
-                    .find(|(s, _)| s == sp)
-                    .map_or(0.0, |(_, c)| *c)
-            };
-            // Effective order of each species that differs between them: −∂ln t/∂ln c at the
-            // fast run (works for several rate-law terms too).
-            let ln_t = |c0: &[(String, f64)]| {
-                RunKinetics::new(reaction, c0, concentration).ok().map(|k| {
-                    k.at(spec.forecast.as_ref().expect("settings").temperature)
-                        .to_colour()
-                        .ln()
-                })
-            };
-            let mut parts: Vec<(f64, String, f64, f64)> = Vec::new();
-            for (sp, c_fast) in &initial[fi] {
-                let ratio = c_fast / conc(si, sp);
-                if !(ratio.is_finite() && ratio > 0.0)
-                    || (ratio - 1.0).abs() < 1e-9
-                    || *sp == spec.timing.species
-                {
-                    continue;
-                }
-                let bumped = |f: f64| {
-                    let mut c = initial[fi].clone();
-                    if let Some(e) = c.iter_mut().find(|(s, _)| s == sp) {
-                        e.1 *= f;
-                    }
-                    ln_t(&c)
-                };
-                if let (Some(up), Some(down)) = (bumped(1.001), bumped(1.0 / 1.001)) {
-                    let n = -(up - down) / (2.0 * 1.001f64.ln());
-                    if (ratio.ln() * n).abs() > 1e-6 {
-                        parts.push(((ratio.ln() * n).abs(), sp.clone(), ratio, n));
-                    }
-                }
-            }
-            parts.sort_by(|a, b| b.0.total_cmp(&a.0));
-            if let Some((_, sp, ratio, n)) = parts.first() {
-                let narrower = ratio.powf(1.0 - shrink.ln() / (ratio.ln() * n).abs());
-                advice.push(format!(
-                    "narrowest change: {sp} differs x{:.2} between those runs; bring it to about x{:.2} (a smaller multiplier for {sp}), or widen the window",
-                    ratio.max(1.0 / ratio),
-                    narrower.max(1.0 / narrower)
-                ));
-            }
-        }
+        advice = advise(spec, initial, &runs, limit);
     }
     Ok(Tuning {
         concentration,

@@ -366,6 +366,11 @@ pub fn ml(litres: f64, decimals: usize) -> String {
 
 /// Format a concentration with a unit chosen for readability (M, mM or µM), 3 significant figures.
 pub fn concentration(molar: f64) -> String {
+    concentration_figures(molar, 3)
+}
+
+/// As [`concentration`], with `figures` significant figures (trailing zeros dropped past 3).
+pub fn concentration_figures(molar: f64, figures: i32) -> String {
     let (v, u) = if molar == 0.0 {
         (0.0, "M")
     } else if molar.abs() >= 0.1 {
@@ -375,7 +380,17 @@ pub fn concentration(molar: f64) -> String {
     } else {
         (molar * 1e6, "µM")
     };
-    format!("{} {u}", sig3(v))
+    let mut number = sig(v, figures);
+    if figures > 3 && number.contains('.') && !number.contains('e') {
+        let keep = sig3(v).len().min(number.len());
+        while number.len() > keep && number.ends_with('0') {
+            number.pop();
+        }
+        if number.ends_with('.') {
+            number.pop();
+        }
+    }
+    format!("{number} {u}")
 }
 
 /// Three significant figures, without scientific notation for lab-sized numbers (1e-4 up to

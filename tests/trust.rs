@@ -516,3 +516,253 @@ fn an_empty_flask_list_is_refused() {
     );
     assert_refused(&o, "flasks is an empty list");
 }
+
+fn forecast_json(spec: &str) -> (i32, serde_json::Value) {
+    let o = run("forecast", spec, &["-f", "json"]);
+    assert_ne!(o.code, 2, "{}", o.stderr);
+    (o.code, json(&o.stdout))
+}
+
+fn warning_codes(run: &serde_json::Value) -> Vec<String> {
+    run["forecast"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w["code"].as_str().unwrap().to_string())
+        .collect()
+}
+
+#[test]
+fn a_run_too_fast_is_told_to_use_more_timing_reagent_and_that_works() {
+    let fast = edit(
+        PEROXIDE,
+        "concentration = \"1.00 mM\"",
+        "concentration = \"0.150 mM\"",
+    );
+    let (code, report) = forecast_json(&fast);
+    assert_eq!(code, 1);
+    let runs = report["runs"].as_array().unwrap();
+    let flagged: Vec<&serde_json::Value> = runs
+        .iter()
+        .filter(|r| warning_codes(r).contains(&"too_fast".to_string()))
+        .collect();
+    assert!(!flagged.is_empty());
+    for r in &flagged {
+        let message = r["forecast"]["warnings"][0]["message"].as_str().unwrap();
+        assert!(message.contains("use more timing reagent"), "{message}");
+    }
+    // Following the advice: twice the timing reagent.
+    let followed = edit(
+        PEROXIDE,
+        "concentration = \"1.00 mM\"",
+        "concentration = \"0.300 mM\"",
+    );
+    let (code, report) = forecast_json(&followed);
+    assert_eq!(code, 0, "{}", report);
+    for r in report["runs"].as_array().unwrap() {
+        assert!(warning_codes(r).is_empty(), "{r}");
+    }
+}
+
+#[test]
+fn a_run_too_slow_is_told_to_use_less_timing_reagent_and_that_works() {
+    let slow = edit(
+        PEROXIDE,
+        "concentration = \"1.00 mM\"",
+        "concentration = \"2.00 mM\"",
+    );
+    let (code, report) = forecast_json(&slow);
+    assert_eq!(code, 1);
+    let base = &report["runs"][0];
+    assert!(warning_codes(base).contains(&"too_slow".to_string()));
+    let message = base["forecast"]["warnings"][0]["message"].as_str().unwrap();
+    assert!(message.contains("use less timing reagent"), "{message}");
+    let (code, _) = forecast_json(PEROXIDE);
+    assert_eq!(code, 0);
+}
+
+#[test]
+fn a_timing_flag_quotes_the_time_at_the_temperature_it_names() {
+    let fast = edit(
+        PEROXIDE,
+        "concentration = \"1.00 mM\"",
+        "concentration = \"0.100 mM\"",
+    );
+    let (_, report) = forecast_json(&fast);
+    let mut checked = 0;
+    for r in report["runs"].as_array().unwrap() {
+        let f = &r["forecast"];
+        let Some(w) = f["warnings"].as_array().unwrap().first() else {
+            continue;
+        };
+        let message = w["message"].as_str().unwrap();
+        let at = f["time_s"].as_f64().unwrap();
+        let warm = f["band_s"][0].as_f64().unwrap();
+        if at < 20.0 {
+            assert!(
+                message.contains(&format!("{at:.1} s at 20.0 °C")),
+                "{message} vs {at}"
+            );
+        }
+        assert!(
+            message.contains(&format!("{warm:.1} s at the warm end")),
+            "{message} vs {warm}"
+        );
+        checked += 1;
+    }
+    assert!(checked >= 2);
+}
+
+#[test]
+fn the_sheet_counts_every_run_that_carries_a_flag() {
+    // Thiosulfate at a fifth: every run of the demo is too fast somewhere in the band.
+    let fast = BROMATE
+        .replace(
+            "concentration = \"0.100 mM\"",
+            "concentration = \"0.0200 mM\"",
+        )
+        .replace(
+            "devices = [\"5 mL transfer pipet\"]",
+            "devices = [\"1 mL transfer pipet\"]",
+        );
+    let o = run("plan", &fast, &[]);
+    assert_eq!(o.code, 1, "{}", o.stderr);
+    let report = json(&run("plan", &fast, &["-f", "json"]).stdout);
+    let flagged = report["runs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|r| {
+            !r["flags"].as_array().unwrap().is_empty()
+                || !r["forecast"]["warnings"].as_array().unwrap().is_empty()
+        })
+        .count();
+    assert!(flagged >= 3, "{flagged}");
+    assert!(
+        o.stdout
+            .contains(&format!("FLAGGED: {flagged} runs need a look")),
+        "{}",
+        o.stdout
+    );
+}
+
+#[test]
+fn every_suggested_timing_concentration_is_accepted_when_pasted_back() {
+    // A 3.33 mM thiosulfate stock: the 3-figure 0.799 mM needs 2.3994 mL, which no pipette
+    // step gives; the suggestions must each be deliverable as written.
+    let spec = PERSULFATE
+        .replace(
+            r#"contains = { "S2O3^2-" = "10.0 mM", "Na+" = "20.0 mM" }"#,
+            r#"contains = { "S2O3^2-" = "3.33 mM", "Na+" = "6.66 mM" }"#,
+        )
+        .replace(
+            "concentration = \"0.800 mM\"",
+            "concentration = \"0.799 mM\"",
+        );
+    let o = run("plan", &spec, &[]);
+    assert_refused(&o, "no allowed device delivers 2.3994 mL");
+    let flat = flat(&o.stderr);
+    let suggestions: Vec<&str> = flat
+        .split("concentration = \"")
+        .skip(1)
+        .map(|s| s.split('"').next().unwrap())
+        .filter(|s| !s.contains("0.799 mM"))
+        .collect();
+    assert_eq!(suggestions.len(), 2, "{flat}");
+    for s in suggestions {
+        let pasted = spec.replace(
+            "concentration = \"0.799 mM\"",
+            &format!("concentration = \"{s}\""),
+        );
+        let again = run("plan", &pasted, &[]);
+        assert_ne!(again.code, 2, "{s} was refused:\n{}", again.stderr);
+    }
+}
+
+#[test]
+fn a_timing_volume_a_hair_from_a_deliverable_one_is_that_one() {
+    // 0.1000004 mM of the 1.00 mM stock in 50 mL is 5.00002 mL, within 1e-5 of the 5 mL
+    // transfer pipet: delivered with it.
+    let near = edit(
+        BROMATE,
+        "concentration = \"0.100 mM\"",
+        "concentration = \"0.1000004 mM\"",
+    );
+    assert_ne!(run("plan", &near, &[]).code, 2);
+}
+
+/// Apply the "e.g. targets 'run': "sp" = "value", …; 'run': …" part of a tune advice line.
+fn follow_tune_advice(spec: &str, advice: &str) -> String {
+    let part = advice
+        .split("e.g. targets ")
+        .nth(1)
+        .expect("targets in the advice")
+        .split("; then")
+        .next()
+        .unwrap();
+    let mut out: Vec<String> = spec.lines().map(String::from).collect();
+    for change in part.split("; '") {
+        let change = change.trim_start_matches('\'');
+        let (run, values) = change.split_once("': ").unwrap();
+        let at = out
+            .iter()
+            .position(|l| l.trim() == format!("name = \"{run}\""))
+            .unwrap_or_else(|| panic!("no run {run}"));
+        let line = &mut out[at + 1];
+        assert!(line.starts_with("targets = {"), "{line}");
+        for pair in values.split(", ") {
+            let (sp, value) = pair.split_once(" = ").unwrap();
+            let start = line.find(&format!("{sp} = \"")).unwrap() + sp.len() + 4;
+            let end = start + line[start..].find('"').unwrap();
+            line.replace_range(start..end, value.trim_matches('"'));
+        }
+    }
+    out.join("\n")
+}
+
+#[test]
+fn tune_without_a_fit_gives_advice_that_works_when_followed_and_no_set_line() {
+    let narrow = edit(
+        PEROXIDE,
+        "window = [\"20 s\", \"8 min\"]",
+        "window = [\"20 s\", \"45 s\"]",
+    );
+    let o = run("tune", &narrow, &[]);
+    assert_eq!(o.code, 1, "{}{}", o.stdout, o.stderr);
+    assert!(!o.stdout.contains("Set [timing]"), "{}", o.stdout);
+    let advice = o
+        .stdout
+        .lines()
+        .find(|l| l.contains("e.g. targets"))
+        .expect("advice with targets");
+    let followed = follow_tune_advice(&narrow, advice);
+    let again = run("tune", &followed, &[]);
+    assert_eq!(
+        again.code, 0,
+        "following the advice did not fit:\n{}",
+        again.stdout
+    );
+    assert!(
+        again.stdout.contains("Set [timing] concentration"),
+        "{}",
+        again.stdout
+    );
+}
+
+#[test]
+fn tune_says_when_the_band_alone_is_wider_than_the_window() {
+    let narrow = edit(
+        PEROXIDE,
+        "window = [\"20 s\", \"8 min\"]",
+        "window = [\"20 s\", \"22 s\"]",
+    );
+    let o = run("tune", &narrow, &[]);
+    assert_eq!(o.code, 1);
+    assert!(
+        o.stdout
+            .contains("the temperature band alone spans more than the window"),
+        "{}",
+        o.stdout
+    );
+    assert!(!o.stdout.contains("Set [timing]"));
+}

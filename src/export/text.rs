@@ -351,11 +351,15 @@ impl Exporter for Text {
             );
         }
         if report.flagged {
-            let n = report.runs.iter().filter(|r| !r.flags.is_empty()).count();
-            let _ = writeln!(
-                out,
-                "FLAGGED: {n} run(s) need a look; see FLAG lines below."
-            );
+            let n = report.runs_needing_a_look();
+            let what = match (n, report.warnings.is_empty()) {
+                (0, _) => "the plan needs a look".to_string(),
+                (1, true) => "1 run needs a look".to_string(),
+                (n, true) => format!("{n} runs need a look"),
+                (1, false) => "1 run and the plan need a look".to_string(),
+                (n, false) => format!("{n} runs and the plan need a look"),
+            };
+            let _ = writeln!(out, "FLAGGED: {what}; see FLAG lines below.");
         }
         out.push('\n');
 
