@@ -692,7 +692,7 @@ fn tune_centres_or_says_what_to_change() {
         .stdout(predicate::str::contains(
             "no single timing concentration fits",
         ))
-        .stdout(predicate::str::contains("narrowest change"));
+        .stdout(predicate::str::contains("e.g. targets"));
 }
 
 #[test]
