@@ -249,9 +249,9 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             output,
             force,
         } => {
-            let svg = crate::chart(read_spec(&spec)?)?;
+            let (svg, flagged) = crate::chart(read_spec(&spec)?)?;
             emit(svg.as_bytes(), output.as_deref(), force, &[&spec])?;
-            Ok(EXIT_OK)
+            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
         }
         Command::Fit {
             spec,
@@ -279,9 +279,9 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             output,
             force,
         } => {
-            let runs = crate::design(read_spec(&spec)?)?;
+            let (runs, flagged) = crate::design(read_spec(&spec)?)?;
             emit(runs.as_bytes(), output.as_deref(), force, &[&spec])?;
-            Ok(EXIT_OK)
+            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
         }
         Command::Tune { spec } => {
             let (text, fits) = crate::tune(read_spec(&spec)?)?;

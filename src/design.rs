@@ -277,11 +277,23 @@ pub fn design(spec: &Spec) -> DesignReport {
             "the design never varies {sp}: its order cannot be determined"
         ));
     }
+    // Each designed run is forecast across the temperature band, and its flags (outside the
+    // window at either end, high conversion, no clock) become the design's warnings.
     let times = match crate::forecast::forecast(
         &designed,
         &runs.iter().map(|r| r.targets.clone()).collect::<Vec<_>>(),
     ) {
-        Some(f) => f.runs.iter().map(|r| r.time()).collect(),
+        Some(f) => {
+            for (r, rf) in runs.iter().zip(&f.runs) {
+                for w in &rf.warnings {
+                    warnings.push(format!("run '{}': {}", r.name, w.message));
+                }
+            }
+            for w in &f.warnings {
+                warnings.push(w.message.clone());
+            }
+            f.runs.iter().map(|r| r.time()).collect()
+        }
         None => vec![None; runs.len()],
     };
     DesignReport {

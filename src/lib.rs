@@ -87,8 +87,8 @@ pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
 }
 
 /// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,
-/// else from the target concentrations.
-pub fn chart(source: SpecSource) -> Result<String> {
+/// else from the target concentrations; and whether anything is flagged (as `forecast`).
+pub fn chart(source: SpecSource) -> Result<(String, bool)> {
     let has_stocks = !spec::load_for(source.clone(), spec::Purpose::Forecast)?
         .stocks
         .is_empty();
@@ -98,20 +98,26 @@ pub fn chart(source: SpecSource) -> Result<String> {
             .forecast_settings
             .as_ref()
             .ok_or_else(|| no_reaction(&report.spec))?;
-        Ok(chart::svg(
-            &report.title,
-            &report.chart_rows(),
-            (s.window_s[0], s.window_s[1]),
-            s.band_c,
+        Ok((
+            chart::svg(
+                &report.title,
+                &report.chart_rows(),
+                (s.window_s[0], s.window_s[1]),
+                s.band_c,
+            ),
+            report.flagged,
         ))
     } else {
         let sheet = forecast_only(source)?;
         let s = &sheet.forecast_settings;
-        Ok(chart::svg(
-            &sheet.title,
-            &sheet.chart_rows(),
-            (s.window_s[0], s.window_s[1]),
-            s.band_c,
+        Ok((
+            chart::svg(
+                &sheet.title,
+                &sheet.chart_rows(),
+                (s.window_s[0], s.window_s[1]),
+                s.band_c,
+            ),
+            sheet.flagged,
         ))
     }
 }
@@ -183,11 +189,14 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
 }
 
 /// Design a run set from the spec's `[design]`; returns the runs as TOML with the expected
-/// precision as comments.
-pub fn design(source: SpecSource) -> Result<String> {
+/// precision as comments, and whether the design carries warnings.
+pub fn design(source: SpecSource) -> Result<(String, bool)> {
     let spec = spec::load_for(source, spec::Purpose::Design)?;
     let report = design::design(&spec);
-    Ok(design::toml_runs(&spec, &report))
+    Ok((
+        design::toml_runs(&spec, &report),
+        !report.warnings.is_empty(),
+    ))
 }
 
 /// Tune the timing-reagent concentration; returns the report as text.

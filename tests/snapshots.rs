@@ -68,6 +68,6 @@ fn bromate_cards_and_chart() {
         let html = String::from_utf8(cards(&r, per, Paper::A4)).unwrap();
         insta::assert_snapshot!(format!("bromate_cards_{p}_a4"), html);
     }
-    let svg = clockprep::chart(source("plans/maple-hollow-bromate.toml")).unwrap();
+    let (svg, _) = clockprep::chart(source("plans/maple-hollow-bromate.toml")).unwrap();
     insta::assert_snapshot!("bromate_chart_svg", svg);
 }

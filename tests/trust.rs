@@ -766,3 +766,65 @@ fn tune_says_when_the_band_alone_is_wider_than_the_window() {
     );
     assert!(!o.stdout.contains("Set [timing]"));
 }
+
+#[test]
+fn design_flags_runs_outside_the_window_anywhere_in_the_band_and_exits_1() {
+    // A 15 s to 60 s window: the base run is slow already at 21 °C, 'I- x2' only at the
+    // cool end of the band (18 °C); both must be flagged.
+    let narrow = edit(
+        BROMATE,
+        "window = [\"15 s\", \"10 min\"]",
+        "window = [\"15 s\", \"60 s\"]",
+    );
+    let o = run("design", &narrow, &[]);
+    assert_eq!(o.code, 1, "{}{}", o.stdout, o.stderr);
+    assert!(
+        says(&o.stdout, "WARNING: run 'base': predicted"),
+        "{}",
+        o.stdout
+    );
+    assert!(
+        says(
+            &o.stdout,
+            "WARNING: run 'I- x2': predicted 66.5 s at the cool end of the band (18.0 °C)"
+        ),
+        "{}",
+        o.stdout
+    );
+    assert_eq!(run("design", BROMATE, &[]).code, 0);
+}
+
+#[test]
+fn chart_exits_like_forecast() {
+    let fast = edit(
+        PEROXIDE,
+        "concentration = \"1.00 mM\"",
+        "concentration = \"0.150 mM\"",
+    );
+    assert_eq!(run("forecast", &fast, &[]).code, 1);
+    assert_eq!(run("chart", &fast, &[]).code, 1);
+    assert_eq!(run("chart", PEROXIDE, &[]).code, 0);
+}
+
+#[test]
+fn cards_show_a_runs_flags() {
+    let fast = BROMATE
+        .replace(
+            "concentration = \"0.100 mM\"",
+            "concentration = \"0.0200 mM\"",
+        )
+        .replace(
+            "devices = [\"5 mL transfer pipet\"]",
+            "devices = [\"1 mL transfer pipet\"]",
+        );
+    for per in ["run", "station"] {
+        let o = run("cards", &fast, &["--per", per]);
+        assert_eq!(o.code, 1, "{}", o.stderr);
+        assert!(
+            o.stdout.contains("too fast") || o.stdout.contains("too_fast"),
+            "--per {per}"
+        );
+    }
+    let o = run("cards", &fast, &["--per", "run"]);
+    assert!(o.stdout.contains("use more timing reagent"));
+}

@@ -98,6 +98,7 @@ th, td {{ border: 0.6pt solid #555; padding: 0.6mm 1.2mm; text-align: left; vert
 td.n {{ text-align: right; white-space: nowrap; }}
 .pour {{ font-weight: bold; margin: 1.5mm 0 1mm 0; }}
 .forecast {{ margin: 0.5mm 0 1mm 0; }}
+.flag {{ font-weight: bold; margin: 0.5mm 0; }}
 .record td {{ height: 6.5mm; }}
 .cautions {{ margin-top: auto; border: 1pt solid #000; padding: 1mm 2mm; font-size: 7pt; }}
 .end {{ font-size: 6pt; text-align: right; color: #444; }}
@@ -147,6 +148,22 @@ fn forecast_line(run: &RunReport) -> Markup {
     }
 }
 
+/// Every flag of a run (its recipe's and its forecast's), in words.
+fn run_flags(run: &RunReport) -> Vec<&crate::solve::Flag> {
+    run.flags
+        .iter()
+        .chain(run.forecast.iter().flat_map(|f| f.warnings.iter()))
+        .collect()
+}
+
+fn flag_lines(run: &RunReport) -> Markup {
+    html! {
+        @for f in run_flags(run) {
+            div.flag { "Check before class (" (f.code) "): " (f.message) }
+        }
+    }
+}
+
 fn run_card(
     report: &PlanReport,
     run: &RunReport,
@@ -169,6 +186,7 @@ fn run_card(
             div.vessels { (vessel_table("A", &run.portions.a, dec)) (vessel_table("B", &run.portions.b, dec)) }
             div.pour { "At t = 0 pour vessel " (first) " into vessel " (second) ", swirl, and start the timer at the moment of mixing." }
             (forecast_line(run))
+            (flag_lines(run))
             table.record {
                 tr { th { "trial" } th { "time to colour (s)" } th { "temperature (°C)" } th { "initials" } }
                 @for t in 1..=report.replicates { tr { td { (t) } td {} td {} td {} } }
@@ -203,7 +221,10 @@ fn station_card(
                 tr { th { "run" } th { "vessel A" } th { "vessel B" } th { "expected" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } } th { "°C" } }
                 @for (n, run) in runs {
                     tr.record {
-                        td { (n) ". " (run.name) }
+                        td {
+                            (n) ". " (run.name)
+                            @for f in run_flags(run) { div.flag { "check: " (f.code.replace('_', " ")) } }
+                        }
                         td { (items(&run.portions.a)) }
                         td { (items(&run.portions.b)) }
                         td.n {
