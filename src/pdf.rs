@@ -67,7 +67,10 @@ pub fn html_to_pdf(html: &[u8], browser: &Path) -> Result<Vec<u8>> {
     let pdf = dir.0.join("cards.pdf");
     std::fs::write(&page, html)
         .map_err(|e| fail(format!("cannot write {}: {e}", page.display())))?;
-    let out = Command::new(browser)
+    let stderr_path = dir.0.join("browser-stderr.txt");
+    let stderr_file = std::fs::File::create(&stderr_path)
+        .map_err(|e| fail(format!("cannot write {}: {e}", stderr_path.display())))?;
+    let mut child = Command::new(browser)
         .args(HEADLESS)
         .arg("--no-pdf-header-footer")
         .arg(format!(
@@ -76,18 +79,80 @@ pub fn html_to_pdf(html: &[u8], browser: &Path) -> Result<Vec<u8>> {
         ))
         .arg(format!("--print-to-pdf={}", pdf.display()))
         .arg(&page)
-        .output()
+        .stdout(std::process::Stdio::null())
+        .stderr(stderr_file)
+        .spawn()
         .map_err(|e| fail(format!("cannot run {}: {e}", browser.display())))?;
+    let timeout = print_timeout();
+    let started = std::time::Instant::now();
+    let status = loop {
+        match child.try_wait() {
+            Ok(Some(status)) => break status,
+            Ok(None) if started.elapsed() >= timeout => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Err(fail(format!(
+                    "{} did not finish printing within {} s and was stopped (set CLOCKPREP_PRINT_TIMEOUT to allow longer, in seconds)",
+                    browser.display(),
+                    timeout.as_secs()
+                )));
+            }
+            Ok(None) => std::thread::sleep(std::time::Duration::from_millis(50)),
+            Err(e) => return Err(fail(format!("cannot wait for {}: {e}", browser.display()))),
+        }
+    };
     match std::fs::read(&pdf) {
         Ok(bytes) if bytes.starts_with(b"%PDF") => Ok(bytes),
         _ => Err(fail(format!(
-            "{} wrote no PDF ({}): {}",
+            "{} wrote no PDF ({status}): {}",
             browser.display(),
-            out.status,
-            String::from_utf8_lossy(&out.stderr)
+            std::fs::read_to_string(&stderr_path)
+                .unwrap_or_default()
                 .lines()
                 .last()
                 .unwrap_or("")
         ))),
+    }
+}
+
+/// How long the browser may take to print: `CLOCKPREP_PRINT_TIMEOUT` seconds, default 60.
+pub fn print_timeout() -> std::time::Duration {
+    let secs = std::env::var("CLOCKPREP_PRINT_TIMEOUT")
+        .ok()
+        .and_then(|v| v.trim().parse::<u64>().ok())
+        .filter(|&s| s > 0)
+        .unwrap_or(DEFAULT_PRINT_TIMEOUT_S);
+    std::time::Duration::from_secs(secs)
+}
+
+/// Default print timeout, s: a card set prints in a few seconds (common practice: a minute
+/// leaves room for a cold start on a slow machine).
+pub const DEFAULT_PRINT_TIMEOUT_S: u64 = 60;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[cfg(unix)]
+    #[test]
+    fn a_browser_that_hangs_is_stopped_and_said_so() {
+        // A stand-in "browser" that never prints: a shell script sleeping far past the limit.
+        let dir = TempDir::new().unwrap();
+        let fake = dir.0.join("hang.sh");
+        std::fs::write(&fake, "#!/bin/sh\nsleep 30\n").unwrap();
+        use std::os::unix::fs::PermissionsExt;
+        std::fs::set_permissions(&fake, std::fs::Permissions::from_mode(0o755)).unwrap();
+        std::env::set_var("CLOCKPREP_PRINT_TIMEOUT", "1");
+        let started = std::time::Instant::now();
+        let e = html_to_pdf(b"<html></html>", &fake).unwrap_err();
+        std::env::remove_var("CLOCKPREP_PRINT_TIMEOUT");
+        assert!(
+            e.to_string().contains("did not finish printing within 1 s"),
+            "{e}"
+        );
+        assert!(
+            started.elapsed().as_secs() < 25,
+            "the hung browser was not stopped"
+        );
     }
 }

@@ -68,6 +68,12 @@ pub enum UnitError {
         found: Kind,
         at: Range<usize>,
     },
+    /// A character that a spreadsheet or keyboard put in the number: a decimal comma, a
+    /// thousands separator, a full-width digit.
+    Character {
+        message: String,
+        at: Range<usize>,
+    },
 }
 
 impl UnitError {
@@ -78,7 +84,8 @@ impl UnitError {
             | UnitError::NotFinite { at }
             | UnitError::MissingUnit { at }
             | UnitError::UnknownUnit { at, .. }
-            | UnitError::WrongKind { at, .. } => at.clone(),
+            | UnitError::WrongKind { at, .. }
+            | UnitError::Character { at, .. } => at.clone(),
         }
     }
 
@@ -93,6 +100,7 @@ impl UnitError {
             UnitError::WrongKind { unit, found, .. } => {
                 format!("'{unit}' is {found}, but {expected} is needed here")
             }
+            UnitError::Character { message, .. } => message.clone(),
         }
     }
 }
@@ -111,6 +119,9 @@ fn split_number(text: &str) -> Result<Parts<'_>, UnitError> {
     let body = text.trim();
     if body.is_empty() {
         return Err(UnitError::Empty);
+    }
+    if let Some(e) = odd_character(body, lead) {
+        return Err(e);
     }
     // The number runs while characters can belong to a decimal in scientific notation.
     let bytes = body.as_bytes();
@@ -166,6 +177,39 @@ fn split_number(text: &str) -> Result<Parts<'_>, UnitError> {
     })
 }
 
+/// Characters that look like part of a number but are not read as one.
+fn odd_character(body: &str, lead: usize) -> Option<UnitError> {
+    for (i, c) in body.char_indices() {
+        let at = lead + i..lead + i + c.len_utf8();
+        let message = match c {
+            '０'..='９' | '．' | '，' => format!(
+                "'{c}' is a full-width character (U+{:04X}); type the number with ASCII digits and a point",
+                c as u32
+            ),
+            ',' => {
+                let before = body[..i].chars().last().is_some_and(|d| d.is_ascii_digit());
+                let after: String = body[i + 1..].chars().take_while(|d| d.is_ascii_digit()).collect();
+                if !before {
+                    continue;
+                }
+                if after.len() == 3 {
+                    "',' reads as a thousands separator; write the number without it (1000, not 1,000)".to_string()
+                } else {
+                    "',' reads as a decimal comma; write a decimal point (0.5, not 0,5)".to_string()
+                }
+            }
+            '\u{00A0}' | '\u{202F}' | '\u{2009}' if body[..i].chars().last().is_some_and(|d| d.is_ascii_digit())
+                && body[i + c.len_utf8()..].chars().next().is_some_and(|d| d.is_ascii_digit()) =>
+            {
+                format!("a thin or no-break space (U+{:04X}) inside the number; write it without separators", c as u32)
+            }
+            _ => continue,
+        };
+        return Some(UnitError::Character { message, at });
+    }
+    None
+}
+
 /// Look a unit up: its kind, and the factor and offset to the internal unit.
 fn unit_info(unit: &str) -> Option<(Kind, f64, f64)> {
     let u = unit.replace('μ', "µ"); // Greek mu → micro sign
@@ -173,10 +217,13 @@ fn unit_info(unit: &str) -> Option<(Kind, f64, f64)> {
         "L" | "l" | "dm3" | "dm^3" => (Kind::Volume, 1.0, 0.0),
         "mL" | "ml" | "cm3" | "cm^3" => (Kind::Volume, 1e-3, 0.0),
         "uL" | "µL" | "ul" | "µl" => (Kind::Volume, 1e-6, 0.0),
-        "M" | "mol/L" | "mol/l" | "mol/dm3" | "mol L^-1" | "mol L-1" => {
+        "M" | "mol/L" | "mol/l" | "mol/dm3" | "mol/dm^3" | "mol L^-1" | "mol L-1" | "mol dm-3"
+        | "mol dm^-3" | "mol·dm⁻³" | "mol dm⁻³" | "mol·L⁻¹" => {
             (Kind::Concentration, 1.0, 0.0)
         }
-        "mM" | "mmol/L" | "mmol/l" => (Kind::Concentration, 1e-3, 0.0),
+        "mM" | "mmol/L" | "mmol/l" | "mmol/dm3" | "mmol dm-3" | "mmol dm^-3" => {
+            (Kind::Concentration, 1e-3, 0.0)
+        }
         "uM" | "µM" | "umol/L" | "µmol/L" => (Kind::Concentration, 1e-6, 0.0),
         "°C" | "degC" | "℃" | "C" => (Kind::Temperature, 1.0, 273.15),
         "K" => (Kind::Temperature, 1.0, 0.0),
@@ -455,6 +502,15 @@ mod tests {
     use approx::assert_relative_eq;
 
     #[test]
+    fn spreadsheet_characters_are_named() {
+        let said = |t: &str| parse(t, Kind::Volume).unwrap_err().describe(Kind::Volume);
+        assert!(said("0,5 mL").contains("decimal comma"));
+        assert!(said("1,000 mL").contains("thousands separator"));
+        assert!(said("５0 mL").contains("full-width"));
+        assert!(said("1\u{202F}000 mL").contains("U+202F"));
+    }
+
+    #[test]
     fn volumes_in_litres() {
         assert_relative_eq!(parse("30.0 mL", Kind::Volume).unwrap(), 0.030);
         assert_relative_eq!(parse("250 uL", Kind::Volume).unwrap(), 250e-6);
@@ -468,6 +524,10 @@ mod tests {
         assert_relative_eq!(parse("0.010 M", Kind::Concentration).unwrap(), 0.010);
         assert_relative_eq!(parse("2.0 mM", Kind::Concentration).unwrap(), 0.002);
         assert_relative_eq!(parse("1.5e-3 mol/L", Kind::Concentration).unwrap(), 0.0015);
+        // mol dm⁻³ is the SI spelling of mol/L (BIPM SI Brochure, 9th ed., table 4 and 5.3.7).
+        assert_relative_eq!(parse("0.10 mol dm-3", Kind::Concentration).unwrap(), 0.10);
+        assert_relative_eq!(parse("0.10 mol/dm3", Kind::Concentration).unwrap(), 0.10);
+        assert_relative_eq!(parse("2.0 mmol dm-3", Kind::Concentration).unwrap(), 0.002);
         assert_relative_eq!(parse("40 µM", Kind::Concentration).unwrap(), 40e-6);
     }
 

@@ -828,3 +828,19 @@ fn cards_show_a_runs_flags() {
     let o = run("cards", &fast, &["--per", "run"]);
     assert!(o.stdout.contains("use more timing reagent"));
 }
+
+#[test]
+fn the_persulfate_caution_names_the_salt_the_spec_uses() {
+    let o = run("plan", PERSULFATE, &[]);
+    assert!(o.stdout.contains("Ammonium persulfate ("), "{}", o.stdout);
+    let potassium = PERSULFATE
+        .replace("solute = \"(NH4)2S2O8\"", "solute = \"K2S2O8\"")
+        .replace(
+            r#"contains = { "S2O8^2-" = "0.100 M", "NH4+" = "0.200 M" }"#,
+            r#"contains = { "S2O8^2-" = "0.100 M", "K+" = "0.200 M" }"#,
+        );
+    let o = run("plan", &potassium, &[]);
+    assert_ne!(o.code, 2, "{}", o.stderr);
+    assert!(o.stdout.contains("Potassium persulfate ("), "{}", o.stdout);
+    assert!(!o.stdout.contains("Ammonium persulfate"), "{}", o.stdout);
+}
