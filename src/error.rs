@@ -43,6 +43,16 @@ impl SpecSource {
         }))
     }
 
+    /// The span of a table's header such as `[reaction]` in this text (end of text if absent).
+    pub fn table(&self, header: &str) -> Range<usize> {
+        let n = self.text.trim_end().len();
+        self.text
+            .match_indices(header)
+            .map(|(i, _)| i)
+            .find(|&i| i == 0 || self.text.as_bytes()[i - 1] == b'\n')
+            .map_or(n..n, |i| i..i + header.len())
+    }
+
     /// 1-based line and column of a byte offset, for plain-text locations.
     pub fn line_col(&self, offset: usize) -> (usize, usize) {
         let upto = &self.text[..offset.min(self.text.len())];

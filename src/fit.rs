@@ -223,10 +223,11 @@ pub fn read_times(source: &SpecSource, spec: &Spec) -> Result<Vec<Trial>> {
         .flexible(true)
         .from_reader(source.text.as_bytes());
     let header_err = |msg: &str| {
+        let first = source.text.lines().next().map_or(0, str::len);
         source.error(
-            0..0,
-            msg.to_string(),
-            "header",
+            0..first,
+            format!("times CSV: {msg}"),
+            "header line",
             "start the file with a header line such as: run,time,temperature",
         )
     };
@@ -871,8 +872,12 @@ impl Problem<'_> {
 }
 
 fn refuse(spec: &Spec, message: &str, help: &str) -> Error {
-    spec.source
-        .error(0..0, message.to_string(), "", help.to_string())
+    spec.source.error(
+        spec.source.table("[reaction]"),
+        message.to_string(),
+        "the prior fitted",
+        help.to_string(),
+    )
 }
 
 /// The updated prior as a TOML fragment to paste over `[reaction]`, with the fit as comments.

@@ -126,7 +126,7 @@ fn no_reaction(spec: &str) -> error::Error {
     SpecSource::new(spec, "").error(
         0..0,
         "a chart needs a forecast, and the spec has no [reaction]",
-        "",
+        "no [reaction]",
         "add [reaction] with a preset, e.g. preset = \"bromate-iodide\"",
     )
 }
@@ -209,8 +209,12 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
         .map(|r| r.target_concentrations())
         .collect();
     let t = tune::tune(&spec, &initial).map_err(|e| {
-        spec.source
-            .error(0..0, e.0, "", "check [reaction] and the runs")
+        spec.source.error(
+            spec.source.table("[reaction]"),
+            e.0,
+            "the prior",
+            "check [reaction] and the runs",
+        )
     })?;
     let f = spec
         .forecast

@@ -109,6 +109,7 @@ struct Constant {
 /// Solve every run of the plan.
 pub fn solve(spec: &Spec) -> Result<Solution> {
     let constant = constant_additions(spec)?;
+    check_reachable_low(spec)?;
     let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
         None => None,
         Some(IonicTarget::Value(v)) => Some(v),
@@ -284,6 +285,62 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     }
     let volume = additions.iter().map(|a| a.volume).sum();
     Ok(Constant { additions, volume })
+}
+
+/// Refuse, before any solver runs, a target so small that the least any allowed device can
+/// deliver of any stock holding the species overshoots it grossly (and leaving it out misses
+/// it grossly too): a pH 8 control of 1e-8 M H+ from a 0.1 M acid, say.
+fn check_reachable_low(spec: &Spec) -> Result<()> {
+    let gross = GROSS_DEVIATION.max(10.0 * spec.tolerance);
+    if gross >= 1.0 {
+        return Ok(()); // leaving the stock out is within the accepted miss
+    }
+    for run in &spec.runs {
+        for t in &run.targets {
+            let least = spec
+                .stocks
+                .iter()
+                .filter(|s| s.in_runs && s.fixed_volume.is_none())
+                .filter_map(|s| {
+                    let c = s.concentration_of(&t.species);
+                    let smallest = s
+                        .devices
+                        .iter()
+                        .filter_map(|&d| spec.devices[d].volumes().next())
+                        .fold(f64::INFINITY, f64::min);
+                    (c > 0.0 && smallest.is_finite())
+                        .then(|| (c * smallest / spec.total_volume, s, smallest))
+                })
+                .min_by(|a, b| a.0.total_cmp(&b.0));
+            let Some((c_least, stock, smallest)) = least else {
+                continue;
+            };
+            if c_least > t.concentration * (1.0 + gross) {
+                let needed =
+                    t.concentration * spec.total_volume / stock.concentration_of(&t.species);
+                let dilute = t.concentration * spec.total_volume / smallest;
+                return Err(spec.source.error(
+                    t.span.clone(),
+                    format!(
+                        "run '{}': {} {} needs {} mL of '{}', far below the {} mL its smallest device delivers",
+                        run.name,
+                        t.species,
+                        units::concentration(t.concentration),
+                        units::sig3(needed * 1e3),
+                        stock.name,
+                        units::sig3(smallest * 1e3)
+                    ),
+                    "no device delivers this little",
+                    format!(
+                        "use a stock of at most {} {} for this target (or a smaller device); a near-zero target is better left out of the run's targets",
+                        units::concentration(dilute),
+                        t.species
+                    ),
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Relative distance within which a timing volume is taken as the deliverable volume next to

@@ -497,6 +497,29 @@ pub fn load_for(source: SpecSource, purpose: Purpose) -> Result<Spec> {
 fn toml_error(source: &SpecSource, e: toml::de::Error) -> Error {
     let span = e.span().unwrap_or(0..0);
     let msg = e.message().trim().to_string();
+    // "[run]" where "[[run]]" is meant: a single table of a kind the spec lists.
+    if msg.contains("duplicate key") || msg.contains("sequence") {
+        let mut offset = 0;
+        for line in source.text.split_inclusive('\n') {
+            let header = line.split('#').next().unwrap_or("").trim();
+            for table in ["run", "stock", "device", "reaction.term"] {
+                if header == format!("[{table}]") {
+                    let start = offset + line.find('[').unwrap_or(0);
+                    return source.error(
+                        start..start + header.len(),
+                        format!("[{table}] is a single table, but a spec lists each {table} as [[{table}]]"),
+                        "needs double brackets",
+                        format!("write [[{table}]] (double brackets) for every {table}"),
+                    );
+                }
+            }
+            offset += line.len();
+        }
+    }
+    let key = key_at(&source.text, span.start);
+    if let Some((message, help)) = type_error_in_words(&msg, key.as_deref()) {
+        return source.error(span, message, "here", help);
+    }
     let help = if msg.contains("unknown field") {
         "remove the key or fix its spelling; the README lists every key a spec accepts"
     } else if msg.contains("missing field") {
@@ -580,6 +603,83 @@ fn formula_from_species(contains: &[(String, f64)]) -> Option<(String, f64)> {
     None
 }
 
+/// The key whose value starts at `at`: the text before `=` on that line, or the table header.
+fn key_at(text: &str, at: usize) -> Option<String> {
+    let line_start = text[..at.min(text.len())].rfind('\n').map_or(0, |p| p + 1);
+    let line = &text[line_start..at.min(text.len())];
+    if let Some((k, _)) = line.rsplit_once('=') {
+        let k = k
+            .rsplit(['{', ','])
+            .next()
+            .unwrap_or(k)
+            .trim()
+            .trim_matches('"');
+        return (!k.is_empty()).then(|| k.to_string());
+    }
+    let rest = &text[line_start..];
+    let header = rest.lines().next()?.trim();
+    header
+        .starts_with('[')
+        .then(|| header.trim_matches(['[', ']']).trim().to_string())
+}
+
+/// TOML type errors in the words of a spec's author.
+fn type_error_in_words(msg: &str, key: Option<&str>) -> Option<(String, String)> {
+    let k = key.unwrap_or("this value");
+    let whole = |what: &str, example: &str| {
+        Some((
+            format!("{k} is {what}"),
+            format!("write a whole number without quotes, e.g. {example}"),
+        ))
+    };
+    if msg.contains("expected i64") || msg.contains("expected an integer") {
+        if msg.contains("string") {
+            return Some((
+                format!("{k} is a whole number, written without quotes"),
+                format!("write it without quotes, e.g. {k} = 2"),
+            ));
+        }
+        return match k {
+            "stations" => whole("a whole number of bench groups", "stations = 4"),
+            "replicates" => whole("a whole number of trials of each run", "replicates = 2"),
+            "fills" => whole("a whole number of fills", "fills = 2"),
+            _ => whole("a whole number", &format!("{k} = 2")),
+        };
+    }
+    if msg.contains("expected a boolean") || msg.contains("expected bool") {
+        return Some((
+            format!("{k} is true or false"),
+            format!("write {k} = true or {k} = false, without quotes"),
+        ));
+    }
+    if msg.contains("invalid type: map, expected a sequence") || msg.contains("expected a sequence")
+    {
+        let table = key.unwrap_or("run");
+        if ["run", "stock", "device", "reaction.term", "term"].contains(&table) {
+            return Some((
+                format!(
+                    "[{table}] is a single table, but a spec lists each {table} as [[{table}]]"
+                ),
+                format!("write [[{table}]] (double brackets) for every {table}"),
+            ));
+        }
+        return Some((
+            format!("{k} needs a list"),
+            format!("write it in square brackets, e.g. {k} = [\"...\"]"),
+        ));
+    }
+    if msg.contains("invalid type: string") && msg.contains("expected a sequence") {
+        return Some((
+            format!("{k} needs a list"),
+            format!("write it in square brackets, e.g. {k} = [\"...\"]"),
+        ));
+    }
+    if msg.contains("expected a string") || msg.contains("expected a table such as") {
+        return None;
+    }
+    None
+}
+
 struct Checker<'a> {
     src: &'a SpecSource,
     purpose: Purpose,
@@ -598,6 +698,12 @@ fn inner(span: Range<usize>, text: &str) -> Range<usize> {
 }
 
 impl Checker<'_> {
+    /// The end of the spec: where a missing table is to be added.
+    fn end(&self) -> Range<usize> {
+        let n = self.src.text.trim_end().len();
+        n..n
+    }
+
     fn err(
         &self,
         span: Range<usize>,
@@ -837,7 +943,7 @@ impl Checker<'_> {
             devices.push(dev);
         }
         if devices.is_empty() && self.purpose == Purpose::Plan {
-            return Err(self.err(0..0, "the spec lists no glassware", "", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
+            return Err(self.err(self.end(), "the spec lists no glassware", "no [[device]] in the spec", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
         }
         let all_devices: Vec<usize> = (0..devices.len()).collect();
         let resolve_devices = |names: &Option<Vec<Name>>| -> Result<Vec<usize>> {
@@ -870,9 +976,9 @@ impl Checker<'_> {
                     }
                     if out.is_empty() {
                         return Err(self.err(
-                            0..0,
-                            "an empty device list allows nothing",
-                            "",
+                            self.end(),
+                            "devices = [] allows no device",
+                            "an empty devices list",
                             "list at least one device, or leave the key out to allow all",
                         ));
                     }
@@ -962,9 +1068,9 @@ impl Checker<'_> {
             // fall through: nothing to check against
         } else if stocks.is_empty() {
             return Err(self.err(
-                0..0,
+                self.end(),
                 "the spec lists no stocks",
-                "",
+                "no [[stock]] in the spec",
                 "add a [[stock]] for each bottle on the shelf",
             ));
         }
@@ -1184,15 +1290,15 @@ impl Checker<'_> {
         let design = match &raw.design {
             Some(d) => Some(self.design(d, &known, check_species, &timing_species)?),
             None if self.purpose == Purpose::Design => {
-                return Err(self.err(0..0, "clockprep design needs a [design] table", "", "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\""))
+                return Err(self.err(self.end(), "clockprep design needs a [design] table", "no [design] in the spec", "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\""))
             }
             None => None,
         };
         if runs.is_empty() && self.purpose != Purpose::Design {
             return Err(self.err(
-                0..0,
+                self.end(),
                 "the spec lists no runs",
-                "",
+                "no [[run]] in the spec",
                 "add a [[run]] with a name and targets for each concentration set",
             ));
         }
@@ -1228,9 +1334,9 @@ impl Checker<'_> {
         let reaction = match &raw.reaction {
             None if self.purpose == Purpose::Forecast => {
                 return Err(self.err(
-                    0..0,
+                    self.end(),
                     "a forecast needs a [reaction]",
-                    "",
+                    "no [reaction] in the spec",
                     format!(
                     "add [reaction] with preset = \"{}\" (presets: {}), or spell out its rate law",
                     crate::presets::NAMES[0],

@@ -140,6 +140,36 @@ fn flagged_plan_exits_1() {
 /// Each bad spec: (what it tests, text to replace, replacement, expected words in the message).
 const BAD: &[(&str, &str, &str, &str)] = &[
     (
+        "stations not a whole number",
+        "stations = 8 ",
+        "stations = 2.5 ",
+        "stations is a whole number of bench groups",
+    ),
+    (
+        "replicates in quotes",
+        "replicates = 2 ",
+        "replicates = \"2\" ",
+        "replicates is a whole number, written without quotes",
+    ),
+    (
+        "a [run] table where [[run]] is needed",
+        "[[run]]\nname = \"reference\"",
+        "[run]\nname = \"reference\"",
+        "[run] is a single table, but a spec lists each run as [[run]]",
+    ),
+    (
+        "decimal comma",
+        "total_volume = \"50.0 mL\"",
+        "total_volume = \"50,0 mL\"",
+        "decimal comma",
+    ),
+    (
+        "thousands separator",
+        "overage = \"15 %\"",
+        "overage = \"1,500 %\"",
+        "thousands separator",
+    ),
+    (
         "toml syntax",
         "title = \"Maple",
         "title = Maple",
@@ -327,6 +357,10 @@ fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
             "{what}: no file:line:col in\n{stderr}"
         );
         assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
+        assert!(
+            !stderr.contains("expected i64") && !stderr.contains("invalid type"),
+            "{what}: a TOML type error in serde's words:\n{stderr}"
+        );
         assert!(!Path::new(&out).exists(), "{what}: wrote an output");
         assert_eq!(
             std::fs::read_dir(dir.path()).unwrap().count(),

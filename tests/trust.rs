@@ -844,3 +844,28 @@ fn the_persulfate_caution_names_the_salt_the_spec_uses() {
     assert!(o.stdout.contains("Potassium persulfate ("), "{}", o.stdout);
     assert!(!o.stdout.contains("Ammonium persulfate"), "{}", o.stdout);
 }
+
+#[test]
+fn a_target_no_device_can_deliver_is_refused_before_any_solve() {
+    // A pH 8 control: 1e-8 M H+ from a 0.100 M acid would need 5e-6 mL.
+    let spec = edit(
+        BROMATE,
+        r#"targets = { "I-" = "2.00 mM", "BrO3-" = "8.00 mM", "H+" = "20.0 mM" }"#,
+        r#"targets = { "I-" = "2.00 mM", "BrO3-" = "8.00 mM", "H+" = "1e-8 M" }"#,
+    );
+    let o = run("plan", &spec, &[]);
+    assert_refused(
+        &o,
+        "run 'reference': H+ 0.0100 µM needs 5.00e-6 mL of 'HCl 0.100 M'",
+    );
+    assert!(!o.stderr.contains("bug"), "{}", o.stderr);
+}
+
+#[test]
+fn a_missing_table_is_named_in_its_label_not_at_1_1() {
+    let no_runs: String = PEROXIDE.split("[[run]]").next().unwrap().to_string();
+    let o = run("forecast", &no_runs, &[]);
+    assert_eq!(o.code, 2);
+    assert!(says(&o.stderr, "no [[run]] in the spec"), "{}", o.stderr);
+    assert!(!o.stderr.contains(":1:1]"), "{}", o.stderr);
+}
