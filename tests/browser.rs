@@ -1,7 +1,7 @@
 //! Bench cards checked in a real browser: printed to PDF by headless Chromium on A4 and Letter,
-//! then read back with poppler (pdfinfo, pdftotext). Skipped when Chromium or poppler is
-//! missing, unless CLOCKPREP_REQUIRE_BROWSER is set (CI sets it), which turns a missing tool
-//! into a failure.
+//! then read back with poppler (pdfinfo, pdftotext). Run with the libtest-mimic harness so that
+//! without Chromium or poppler the tests show as ignored (not as passed), unless
+//! CLOCKPREP_REQUIRE_BROWSER is set (CI sets it), which turns a missing tool into a failure.
 
 use assert_cmd::Command;
 use std::path::{Path, PathBuf};
@@ -14,14 +14,45 @@ fn tools() -> Option<PathBuf> {
     let poppler = process::Command::new("pdfinfo").arg("-v").output().is_ok();
     match (browser, poppler) {
         (Some(b), true) => Some(b),
-        _ if std::env::var_os("CLOCKPREP_REQUIRE_BROWSER").is_some() => {
-            panic!("CLOCKPREP_REQUIRE_BROWSER is set but chromium or poppler-utils is missing")
-        }
-        _ => {
-            eprintln!("skipping: chromium or poppler-utils is not installed");
-            None
-        }
+        _ => None,
     }
+}
+
+fn browser() -> PathBuf {
+    tools().expect("chromium and poppler-utils are installed")
+}
+
+fn main() {
+    let args = libtest_mimic::Arguments::from_args();
+    let missing = tools().is_none();
+    let required = std::env::var_os("CLOCKPREP_REQUIRE_BROWSER").is_some();
+    if missing && required {
+        eprintln!("CLOCKPREP_REQUIRE_BROWSER is set but chromium or poppler-utils is missing");
+        process::exit(101);
+    }
+    let tests: Vec<(&str, fn())> = vec![
+        (
+            "cards_print_on_both_papers_without_splitting_or_overflowing",
+            cards_print_on_both_papers_without_splitting_or_overflowing,
+        ),
+        ("names_print_as_text", names_print_as_text),
+    ];
+    let trials = tests
+        .into_iter()
+        .map(|(name, f)| {
+            libtest_mimic::Trial::test(name, move || {
+                std::panic::catch_unwind(f).map_err(|e| {
+                    e.downcast_ref::<String>()
+                        .cloned()
+                        .or_else(|| e.downcast_ref::<&str>().map(|s| s.to_string()))
+                        .unwrap_or_else(|| "panicked".into())
+                        .into()
+                })
+            })
+            .with_ignored_flag(missing)
+        })
+        .collect();
+    libtest_mimic::run(&args, trials).exit();
 }
 
 fn pdf_pages(pdf: &Path) -> usize {
@@ -91,9 +122,8 @@ fn print(spec: &Path, per: &str, paper: &str, dir: &Path) -> (PathBuf, PathBuf) 
     (html, pdf)
 }
 
-#[test]
 fn cards_print_on_both_papers_without_splitting_or_overflowing() {
-    let Some(browser) = tools() else { return };
+    let browser = browser();
     let dir = tempfile::tempdir().unwrap();
     let report = clockprep::plan(clockprep::error::SpecSource::new(
         DEMO,
@@ -153,9 +183,7 @@ fn cards_print_on_both_papers_without_splitting_or_overflowing() {
     }
 }
 
-#[test]
 fn names_print_as_text() {
-    let Some(_) = tools() else { return };
     let dir = tempfile::tempdir().unwrap();
     let spec = dir.path().join("escape.toml");
     let text = std::fs::read_to_string(DEMO).unwrap().replace(
