@@ -869,3 +869,76 @@ fn a_missing_table_is_named_in_its_label_not_at_1_1() {
     assert!(says(&o.stderr, "no [[run]] in the spec"), "{}", o.stderr);
     assert!(!o.stderr.contains(":1:1]"), "{}", o.stderr);
 }
+
+#[test]
+fn no_input_is_ever_an_output_whatever_the_spelling_or_flags() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("spec.toml");
+    let times = dir.path().join("t.csv");
+    std::fs::write(&spec, BROMATE).unwrap();
+    std::fs::write(&times, PILOT).unwrap();
+    let link = dir.path().join("link.csv");
+    #[cfg(unix)]
+    std::os::unix::fs::symlink(&times, &link).unwrap();
+    for out in ["./t.csv", "link.csv", "../$DIR/t.csv", "./spec.toml"] {
+        let out = out.replace("$DIR", dir.path().file_name().unwrap().to_str().unwrap());
+        let o = assert_cmd::Command::cargo_bin("clockprep")
+            .unwrap()
+            .current_dir(dir.path())
+            .args(["fit", "spec.toml", "t.csv", "-o", &out, "--force"])
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{out}");
+        assert!(
+            String::from_utf8_lossy(&o.stderr).contains("over an input"),
+            "{out}"
+        );
+    }
+    assert_eq!(std::fs::read_to_string(&times).unwrap(), PILOT);
+    assert_eq!(std::fs::read_to_string(&spec).unwrap(), BROMATE);
+}
+
+#[cfg(target_os = "linux")]
+#[test]
+fn a_failed_write_to_standard_output_exits_2() {
+    let full = std::fs::File::options()
+        .write(true)
+        .open("/dev/full")
+        .unwrap();
+    let o = std::process::Command::new(assert_cmd::cargo::cargo_bin("clockprep"))
+        .args(["plan", "plans/maple-hollow-bromate.toml"])
+        .stdout(full)
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("cannot write standard output"), "{err}");
+    assert_eq!(
+        err.matches("os error 28").count(),
+        1,
+        "the OS error printed more than once:\n{err}"
+    );
+}
+
+#[test]
+fn a_times_file_that_is_not_utf8_names_its_line() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("spec.toml"), BROMATE).unwrap();
+    std::fs::write(dir.path().join("t.csv"), b"run,time\nreference,131\xe9\n").unwrap();
+    let o = assert_cmd::Command::cargo_bin("clockprep")
+        .unwrap()
+        .current_dir(dir.path())
+        .args(["fit", "spec.toml", "t.csv"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        says(
+            &err,
+            "the times file t.csv is not UTF-8 text: line 2, column 14"
+        ),
+        "{err}"
+    );
+    assert!(says(&err, "save it as UTF-8"), "{err}");
+}
