@@ -470,12 +470,7 @@ pub fn fit(
             ));
         }
     }
-    let ln_c = |run: usize, sp: &str| {
-        initial[run]
-            .iter()
-            .find(|(s, _)| s == sp)
-            .map_or(f64::NAN, |(_, c)| c.ln())
-    };
+    let ln_c = |run: usize, sp: &str| ln_conc(initial, run, sp);
     let free: Vec<usize> = (0..species.len())
         .filter(|&j| !options.fixed.iter().any(|(s, _)| *s == species[j]))
         .collect();
@@ -533,56 +528,46 @@ pub fn fit(
     // The activation energy: fitted only from a wide enough temperature span, and kept only
     // when the data determine it; else the prior's, with k at the trials' mean temperature.
     let c = |t: f64| t - 273.15;
-    let (solved, ea_fitted, mut ea_note) = if span >= EA_MIN_SPAN_K {
+    let fitted = if span >= EA_MIN_SPAN_K {
         let s = problem.solve(start.clone(), Some(term.t_ref))?;
         let (value, se) = (s.ols.beta[1 + free.len()], s.ols.se[1 + free.len()]);
         if value > 0.0 && se / value < EA_MAX_RSE {
-            (
+            Ok((
                 s,
-                true,
                 format!(
                     "fitted from trials spanning {:.1} °C ({:.1} to {:.1} °C)",
                     span,
                     c(sorted[0]),
                     c(sorted[sorted.len() - 1])
                 ),
-            )
+            ))
         } else {
-            (
-                problem.solve(start.clone(), None)?,
-                false,
-                format!(
-                    "kept from the prior: the trials' {:.1} °C span gives {:.0} ± {:.0} kJ/mol (relative standard error above {:.0} %)",
-                    span,
-                    value / 1e3,
-                    se / 1e3,
-                    EA_MAX_RSE * 100.0
-                ),
-            )
+            Err(format!(
+                ": the trials' {:.1} °C span gives {:.0} ± {:.0} kJ/mol (relative standard error above {:.0} %)",
+                span,
+                value / 1e3,
+                se / 1e3,
+                EA_MAX_RSE * 100.0
+            ))
         }
+    } else if span < 0.05 {
+        Err(format!(" (all trials at {:.1} °C)", c(mean_t)))
     } else {
-        (
-            problem.solve(start.clone(), None)?,
-            false,
-            format!(
-                "kept from the prior: the trials span {:.1} °C, less than the {:.0} °C needed to fit it; k is fitted at their mean temperature",
-                span, EA_MIN_SPAN_K
-            ),
-        )
+        Err(format!(
+            ": the trials span {:.1} °C, less than the {:.0} °C needed to fit it; k is fitted at their mean temperature",
+            span, EA_MIN_SPAN_K
+        ))
     };
-    if term.activation_energy.is_none() && !ea_fitted {
-        ea_note = format!(
-            "none: the prior has none and the trials span {:.1} °C; k is fitted at their mean temperature",
-            span
-        );
-    }
-    if !ea_fitted && span < 0.05 {
-        ea_note = format!(
-            "{} (all trials at {:.1} °C)",
-            ea_note.split(':').next().unwrap_or("kept from the prior"),
-            c(mean_t)
-        );
-    }
+    let (solved, ea_fitted, ea_note) = match fitted {
+        Ok((s, note)) => (s, true, note),
+        Err(why) => {
+            let note = match term.activation_energy {
+                Some(_) => format!("kept from the prior{why}"),
+                None => format!("none: the prior has none{why}"),
+            };
+            (problem.solve(start, None)?, false, note)
+        }
+    };
     let t_ref = if ea_fitted { term.t_ref } else { mean_t };
     if solved.ols.dof == 0 {
         return Err(refuse(
@@ -728,6 +713,14 @@ pub fn fit(
     })
 }
 
+/// ln of a run's initial concentration of a species (NaN when the run lacks it).
+fn ln_conc(initial: &[Vec<(String, f64)>], run: usize, sp: &str) -> f64 {
+    initial[run]
+        .iter()
+        .find(|(s, _)| s == sp)
+        .map_or(f64::NAN, |(_, c)| c.ln())
+}
+
 /// The least-squares problem of a fit: data, and which orders are free.
 struct Problem<'a> {
     spec: &'a Spec,
@@ -752,10 +745,7 @@ const MAX_ITERATIONS: usize = 30;
 
 impl Problem<'_> {
     fn ln_c(&self, run: usize, sp: &str) -> f64 {
-        self.initial[run]
-            .iter()
-            .find(|(s, _)| s == sp)
-            .map_or(f64::NAN, |(_, c)| c.ln())
+        ln_conc(self.initial, run, sp)
     }
 
     /// Fit with the activation energy as a parameter (`ea_ref` = its reference temperature),

@@ -214,14 +214,14 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     // A timing volume within TIMING_SNAP of a deliverable one is that one: the stated
     // concentration was rounded (e.g. pasted from a suggestion below).
     let (below, above) = nearest_deliverable(v_timing, &stock.devices, &spec.devices);
-    let v_timing = [below, above]
-        .into_iter()
-        .flatten()
-        .find(|v| {
-            find_delivery(v_timing, &stock.devices, &spec.devices).is_none()
-                && ((v - v_timing) / v_timing).abs() <= TIMING_SNAP
-        })
-        .unwrap_or(v_timing);
+    let v_timing = match find_delivery(v_timing, &stock.devices, &spec.devices) {
+        Some(_) => v_timing,
+        None => [below, above]
+            .into_iter()
+            .flatten()
+            .find(|v| ((v - v_timing) / v_timing).abs() <= TIMING_SNAP)
+            .unwrap_or(v_timing),
+    };
     let delivery = find_delivery(v_timing, &stock.devices, &spec.devices).ok_or_else(|| {
         let mut options = Vec::new();
         for v in [below, above].into_iter().flatten() {

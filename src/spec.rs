@@ -652,30 +652,12 @@ fn type_error_in_words(msg: &str, key: Option<&str>) -> Option<(String, String)>
             format!("write {k} = true or {k} = false, without quotes"),
         ));
     }
-    if msg.contains("invalid type: map, expected a sequence") || msg.contains("expected a sequence")
-    {
-        let table = key.unwrap_or("run");
-        if ["run", "stock", "device", "reaction.term", "term"].contains(&table) {
-            return Some((
-                format!(
-                    "[{table}] is a single table, but a spec lists each {table} as [[{table}]]"
-                ),
-                format!("write [[{table}]] (double brackets) for every {table}"),
-            ));
-        }
+    if msg.contains("expected a sequence") {
+        // ("[run]" written for "[[run]]" is caught before this, from the text.)
         return Some((
             format!("{k} needs a list"),
             format!("write it in square brackets, e.g. {k} = [\"...\"]"),
         ));
-    }
-    if msg.contains("invalid type: string") && msg.contains("expected a sequence") {
-        return Some((
-            format!("{k} needs a list"),
-            format!("write it in square brackets, e.g. {k} = [\"...\"]"),
-        ));
-    }
-    if msg.contains("expected a string") || msg.contains("expected a table such as") {
-        return None;
     }
     None
 }

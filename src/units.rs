@@ -416,7 +416,8 @@ pub fn concentration(molar: f64) -> String {
     concentration_figures(molar, 3)
 }
 
-/// As [`concentration`], with `figures` significant figures (trailing zeros dropped past 3).
+/// As [`concentration`], with up to `figures` significant figures: three when those are the
+/// exact value, else `figures` with trailing zeros dropped.
 pub fn concentration_figures(molar: f64, figures: i32) -> String {
     let (v, u) = if molar == 0.0 {
         (0.0, "M")
@@ -427,16 +428,15 @@ pub fn concentration_figures(molar: f64, figures: i32) -> String {
     } else {
         (molar * 1e6, "µM")
     };
-    let mut number = sig(v, figures);
-    if figures > 3 && number.contains('.') && !number.contains('e') {
-        let keep = sig3(v).len().min(number.len());
-        while number.len() > keep && number.ends_with('0') {
-            number.pop();
-        }
-        if number.ends_with('.') {
-            number.pop();
-        }
-    }
+    let three = sig3(v);
+    let long = sig(v, figures.max(3));
+    let number = if three.parse::<f64>().ok() == long.parse::<f64>().ok() {
+        three
+    } else if long.contains('.') && !long.contains('e') {
+        long.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        long
+    };
     format!("{number} {u}")
 }
 

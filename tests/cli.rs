@@ -1,7 +1,9 @@
 //! Integration tests through the built binary: good plans, outputs, exit codes, and bad input
 //! that must exit 2 with a located message and write nothing.
 
+mod common;
 use assert_cmd::Command;
+use common::located;
 use predicates::prelude::*;
 use std::path::Path;
 
@@ -315,18 +317,6 @@ const BAD: &[(&str, &str, &str, &str)] = &[
     ),
 ];
 
-fn located(stderr: &str, file: &str) -> bool {
-    // miette shows the location as [file:line:col]
-    let Some(at) = stderr.find(&format!("{file}:")) else {
-        return false;
-    };
-    let rest = &stderr[at + file.len() + 1..];
-    let mut parts = rest.splitn(3, |c: char| !c.is_ascii_digit());
-    let line = parts.next().unwrap_or("");
-    let col = parts.next().unwrap_or("");
-    !line.is_empty() && !col.is_empty() && rest[line.len()..].starts_with(':')
-}
-
 #[test]
 fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
     assert!(BAD.len() >= 15);
@@ -353,7 +343,7 @@ fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
             "{what}: expected {expect:?} in\n{stderr}"
         );
         assert!(
-            located(&stderr, &spec.display().to_string()),
+            located(&stderr, &spec),
             "{what}: no file:line:col in\n{stderr}"
         );
         assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
@@ -637,10 +627,7 @@ fn fit_refuses_bad_times_with_a_location() {
         let stderr = String::from_utf8_lossy(&out.stderr);
         assert_eq!(out.status.code(), Some(2), "{what}: {stderr}");
         assert!(stderr.contains(expect), "{what}: {stderr}");
-        assert!(
-            located(&stderr, &times.display().to_string()),
-            "{what}: {stderr}"
-        );
+        assert!(located(&stderr, &times), "{what}: {stderr}");
     }
     // Only the reference and the iodide runs timed: bromate and acid never vary.
     let dir = tempfile::tempdir().unwrap();

@@ -80,50 +80,46 @@ fn contains_ratios_that_disagree_with_the_formula_are_refused() {
 
 #[test]
 fn a_zero_typed_for_the_letter_o_in_a_solute_is_refused() {
-    let o = run(
+    refuses(
         "stocks",
-        &edit(BROMATE, "solute = \"KBrO3\"", "solute = \"KBr03\""),
-        &[],
+        BROMATE,
+        "solute = \"KBrO3\"",
+        "solute = \"KBr03\"",
+        "starts with a zero; did you mean the letter O?",
     );
-    assert_refused(&o, "starts with a zero; did you mean the letter O?");
 }
 
 #[test]
 fn a_solute_that_cannot_supply_a_listed_species_is_refused_naming_both() {
-    let o = run(
+    refuses(
         "stocks",
-        &edit(BROMATE, "solute = \"KBrO3\"", "solute = \"KBr3\""),
-        &[],
+        BROMATE,
+        "solute = \"KBrO3\"",
+        "solute = \"KBr3\"",
+        "solute 'KBr3' has no O, so it cannot supply BrO3-",
     );
-    assert_refused(&o, "solute 'KBr3' has no O, so it cannot supply BrO3-");
 }
 
 #[test]
 fn a_counter_ion_left_out_of_contains_is_named() {
-    let o = run(
+    refuses(
         "stocks",
-        &edit(
-            BROMATE,
-            r#"contains = { "I-" = "0.0100 M", "K+" = "0.0100 M" }"#,
-            r#"contains = { "I-" = "0.0100 M" }"#,
-        ),
-        &[],
+        BROMATE,
+        r#"contains = { "I-" = "0.0100 M", "K+" = "0.0100 M" }"#,
+        r#"contains = { "I-" = "0.0100 M" }"#,
+        "solute 'KI' gives I- and also K+",
     );
-    assert_refused(&o, "solute 'KI' gives I- and also K+");
 }
 
 #[test]
 fn solute_concentration_that_disagrees_with_contains_is_refused() {
-    let o = run(
+    refuses(
         "stocks",
-        &edit(
-            BROMATE,
-            "solute = \"KI\"",
-            "solute = \"KI\"\nsolute_concentration = \"0.0200 M\"",
-        ),
-        &[],
+        BROMATE,
+        "solute = \"KI\"",
+        "solute = \"KI\"\nsolute_concentration = \"0.0200 M\"",
+        "solute_concentration 20.0 mM disagrees with contains",
     );
-    assert_refused(&o, "solute_concentration 20.0 mM disagrees with contains");
     // Agreeing with contains, it is accepted.
     let ok = edit(
         BROMATE,
@@ -135,16 +131,13 @@ fn solute_concentration_that_disagrees_with_contains_is_refused() {
 
 #[test]
 fn a_dilution_that_leaves_out_a_species_of_its_source_is_refused() {
-    let o = run(
+    let o = refuses(
         "stocks",
-        &edit(
-            BROMATE,
-            r#"contains = { "H+" = "0.100 M", "Cl-" = "0.100 M" }"#,
-            r#"contains = { "H+" = "0.100 M" }"#,
-        ),
-        &[],
+        BROMATE,
+        r#"contains = { "H+" = "0.100 M", "Cl-" = "0.100 M" }"#,
+        r#"contains = { "H+" = "0.100 M" }"#,
+        "stock 'HCl 0.100 M' leaves out Cl-",
     );
-    assert_refused(&o, "stock 'HCl 0.100 M' leaves out Cl-");
     assert!(says(&o.stderr, "\"Cl-\" = \"0.100 M\""), "{}", o.stderr);
 }
 
@@ -491,30 +484,18 @@ fn per_station_volume_is_what_one_station_uses_over_its_replicates() {
 
 #[test]
 fn a_reference_temperature_above_60_c_is_refused() {
-    let o = run(
-        "forecast",
-        &edit(
-            BROMATE,
-            "preset = \"bromate-iodide\"",
-            "preset = \"bromate-iodide\"\n[[reaction.term]]\nk = \"40 M^-3 s^-1\"\nat = \"75 °C\"\norders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }",
-        ),
-        &[],
-    );
-    assert_refused(&o, "at = 75.0 °C is outside 0–60 °C");
+    refuses("forecast", BROMATE, "preset = \"bromate-iodide\"", "preset = \"bromate-iodide\"\n[[reaction.term]]\nk = \"40 M^-3 s^-1\"\nat = \"75 °C\"\norders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }", "at = 75.0 °C is outside 0–60 °C");
 }
 
 #[test]
 fn an_empty_flask_list_is_refused() {
-    let o = run(
+    refuses(
         "stocks",
-        &edit(
-            BROMATE,
-            "tolerance = \"1 %\"",
-            "tolerance = \"1 %\"\nflasks = []",
-        ),
-        &[],
+        BROMATE,
+        "tolerance = \"1 %\"",
+        "tolerance = \"1 %\"\nflasks = []",
+        "flasks is an empty list",
     );
-    assert_refused(&o, "flasks is an empty list");
 }
 
 fn forecast_json(spec: &str) -> (i32, serde_json::Value) {

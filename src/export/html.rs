@@ -123,16 +123,17 @@ impl Exporter for Html {
                 (chart::inline(&r.title, &chart_rows, (s.window_s[0], s.window_s[1]), s.band_c))
             }
             h2 { "Volumes per run (mL)" }
+            @let columns = r.volume_columns();
             table {
                 tr {
                     th { "run" }
-                    @for col in r.volume_columns() { th.n { (col) } }
+                    @for col in &columns { th.n { (col) } }
                     @if r.reaction.is_some() { th.n { "predicted (s)" } }
                 }
                 @for run in &r.runs {
                     tr {
                         td { (run.name) }
-                        @for col in r.volume_columns() { td.n { (v(run.volume_of(col))) } }
+                        @for col in &columns { td.n { (v(run.volume_of(col))) } }
                         @if r.reaction.is_some() {
                             td.n { (run.forecast.as_ref().and_then(|f| f.time_s).map_or("-".into(), |t| format!("{t:.1}"))) }
                         }

@@ -105,6 +105,14 @@ pub fn assert_refused(o: &Outcome, expect: &str) {
     assert!(o.stderr.contains("help:"), "no hint in\n{}", o.stderr);
 }
 
+/// Run `command` on `base` with `from` replaced by `to`, and assert that it is refused with
+/// `expect` (see [`assert_refused`]); the outcome is returned for further checks.
+pub fn refuses(command: &str, base: &str, from: &str, to: &str, expect: &str) -> Outcome {
+    let o = run(command, &edit(base, from, to), &[]);
+    assert_refused(&o, expect);
+    o
+}
+
 /// A number of the JSON output at a path such as `stock_recipes.0.grams`.
 pub fn json(text: &str) -> serde_json::Value {
     serde_json::from_str(text).unwrap_or_else(|e| panic!("not JSON ({e}):\n{text}"))
