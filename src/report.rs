@@ -822,12 +822,14 @@ impl PlanReport {
 impl RunReport {
     /// mL of one stock (or "water", summed over both portions) in this run.
     pub fn volume_of(&self, stock: &str) -> f64 {
+        // The volumes are already mL; only the float noise of the sum is removed.
         ml(self
             .volumes
             .iter()
             .filter(|v| v.stock == stock)
             .map(|v| v.ml)
-            .sum())
+            .sum::<f64>()
+            * 1e-3)
     }
 }
 

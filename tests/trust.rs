@@ -923,3 +923,26 @@ fn a_times_file_that_is_not_utf8_names_its_line() {
     );
     assert!(says(&err, "save it as UTF-8"), "{err}");
 }
+
+#[test]
+fn the_volumes_overview_adds_up_to_each_runs_total() {
+    // Regression: summing the water portions once scaled the whole overview by 1000.
+    let text = run("plan", BROMATE, &[]).stdout;
+    let md = run("plan", BROMATE, &["-f", "md"]).stdout;
+    let row = text.lines().find(|l| l.starts_with("reference ")).unwrap();
+    let sum: f64 = row
+        .split_whitespace()
+        .skip(1)
+        .take(7)
+        .map(|v| v.parse::<f64>().unwrap())
+        .sum();
+    approx::assert_relative_eq!(sum, 50.0, max_relative = 1e-9);
+    let row = md.lines().find(|l| l.starts_with("| reference |")).unwrap();
+    let sum: f64 = row
+        .split('|')
+        .skip(2)
+        .take(7)
+        .map(|v| v.trim().parse::<f64>().unwrap())
+        .sum();
+    approx::assert_relative_eq!(sum, 50.0, max_relative = 1e-9);
+}
