@@ -218,6 +218,25 @@ pub struct Fit {
 /// header). Times are seconds ("83.2"), with a unit ("83.2 s", "1.4 min") or minutes:seconds
 /// ("1:23.2"); temperatures carry a unit ("21.5 °C") or are bare degrees Celsius.
 pub fn read_times(source: &SpecSource, spec: &Spec) -> Result<Vec<Trial>> {
+    use crate::spec::limits;
+    if source.text.len() > limits::INPUT_BYTES {
+        return Err(source.error(
+            0..0,
+            format!(
+                "the times CSV is {} bytes, over the {} byte limit",
+                source.text.len(),
+                limits::INPUT_BYTES
+            ),
+            "too large",
+            "a term's times are well under 1 MiB: check that this is the right file",
+        ));
+    }
+    let run_index: std::collections::HashMap<&str, usize> = spec
+        .runs
+        .iter()
+        .enumerate()
+        .map(|(i, r)| (r.name.as_str(), i))
+        .collect();
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
         .flexible(true)
@@ -266,25 +285,33 @@ pub fn read_times(source: &SpecSource, spec: &Spec) -> Result<Vec<Trial>> {
             continue;
         }
         let name = record.get(run_col).unwrap_or("");
-        let run = spec
-            .runs
-            .iter()
-            .position(|r| r.name == name)
-            .ok_or_else(|| {
-                source.error(
-                    span(run_col),
-                    format!("run '{name}' is not in the spec"),
-                    "unknown run",
-                    format!(
-                        "runs in the spec: {}",
-                        spec.runs
-                            .iter()
-                            .map(|r| format!("'{}'", r.name))
-                            .collect::<Vec<_>>()
-                            .join(", ")
-                    ),
-                )
-            })?;
+        if trials.len() >= limits::TRIALS {
+            return Err(source.error(
+                span(run_col),
+                format!("more than {} trials in the times CSV", limits::TRIALS),
+                "too many",
+                format!("fit at most {} trials at a time", limits::TRIALS),
+            ));
+        }
+        let run = run_index.get(name).copied().ok_or_else(|| {
+            source.error(
+                span(run_col),
+                format!("run '{name}' is not in the spec"),
+                "unknown run",
+                {
+                    let mut names: Vec<String> = spec
+                        .runs
+                        .iter()
+                        .take(12)
+                        .map(|r| format!("'{}'", r.name))
+                        .collect();
+                    if spec.runs.len() > 12 {
+                        names.push(format!("and {} more", spec.runs.len() - 12));
+                    }
+                    format!("runs in the spec: {}", names.join(", "))
+                },
+            )
+        })?;
         let text = record.get(time_col).unwrap_or("");
         let time = parse_time(text).ok_or_else(|| {
             source.error(

@@ -3,7 +3,7 @@
 //! assumption (small conversion) and the lab period. A forecast is a planning aid from a prior
 //! rate law, never a guarantee.
 
-use crate::kinetics::{NoClock, RunKinetics, Timing};
+use crate::kinetics::{NoClock, RunKinetics, Timing, QUADRATURE_ACCEPTED};
 use crate::solve::Flag;
 use crate::spec::Spec;
 
@@ -102,8 +102,9 @@ pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast>
                 }
             };
             let at = kin.at(t);
-            let fast = kin.at(warm).to_colour();
-            let slow = kin.at(cool).to_colour();
+            let (at_warm, at_cool) = (kin.at(warm), kin.at(cool));
+            let fast = at_warm.to_colour();
+            let slow = at_cool.to_colour();
             let time = at.to_colour();
             // Each flag quotes the time at the temperature it names.
             if fast < short {
@@ -126,6 +127,16 @@ pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast>
                 warnings.push(Flag {
                     code: "too_slow",
                     message: format!("predicted {quoted}, over the {} window; use less timing reagent (a shorter wait) or more concentrated reactants", seconds(long)),
+                });
+            }
+            let accuracy = [at, at_warm, at_cool]
+                .iter()
+                .map(|t| t.relative_error)
+                .fold(0.0, f64::max);
+            if accuracy.is_nan() || accuracy > QUADRATURE_ACCEPTED {
+                warnings.push(Flag {
+                    code: "inaccurate_time",
+                    message: format!("the clock-time integral reached a relative accuracy of only {} (wanted {QUADRATURE_ACCEPTED:e}); treat this run's time with caution and check its concentrations", crate::units::sig(accuracy, 2)),
                 });
             }
             out.conversions = kin.conversions().map(|(s, c)| (s.to_string(), c)).collect();

@@ -400,7 +400,14 @@ pub struct Timing {
     pub initial_rate: f64,
     /// M/s, the initial rate r₀ of rate-species consumption.
     pub rate0: f64,
+    /// The quadrature's estimated relative error of the time to colour.
+    pub relative_error: f64,
 }
+
+/// Relative accuracy asked of each clock-time integral.
+pub const QUADRATURE_TOLERANCE: f64 = 1e-10;
+/// A forecast whose integral is estimated worse than this is flagged (`inaccurate_time`).
+pub const QUADRATURE_ACCEPTED: f64 = 1e-6;
 
 impl Timing {
     /// The time the forecast reports: to visible colour when a threshold is known.
@@ -533,18 +540,31 @@ impl RunKinetics {
             };
         }
         let f = |xi: f64| 1.0 / self.rate(&ks, xi);
-        let clock = integrate(&f, 0.0, self.xi_clock, 1e-10);
-        let visible_extra = if self.xi_visible > 0.0 {
-            integrate(&f, self.xi_clock, self.xi_clock + self.xi_visible, 1e-10)
+        let clock = integrate_with_error(&f, 0.0, self.xi_clock, QUADRATURE_TOLERANCE);
+        let visible = if self.xi_visible > 0.0 {
+            integrate_with_error(
+                &f,
+                self.xi_clock,
+                self.xi_clock + self.xi_visible,
+                QUADRATURE_TOLERANCE,
+            )
         } else {
-            0.0
+            Quadrature {
+                value: 0.0,
+                error: 0.0,
+            }
         };
         let rate0 = self.rate(&ks, 0.0);
+        let total = Quadrature {
+            value: clock.value + visible.value,
+            error: clock.error + visible.error,
+        };
         Timing {
-            clock,
-            visible_extra,
+            clock: clock.value,
+            visible_extra: visible.value,
             initial_rate: self.xi_clock / rate0,
             rate0,
+            relative_error: total.relative_error(),
         }
     }
 
@@ -615,30 +635,76 @@ fn gk15(f: &impl Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
     (k * h, ((k - g) * h).abs())
 }
 
+/// An integral with its estimated absolute error.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Quadrature {
+    pub value: f64,
+    /// Sum of the accepted panels' |Kronrod − Gauss| estimates.
+    pub error: f64,
+}
+
+impl Quadrature {
+    /// The error estimate relative to the value (∞ for a non-finite or zero value with error).
+    pub fn relative_error(&self) -> f64 {
+        if self.error == 0.0 {
+            0.0
+        } else if self.value.is_finite() && self.value != 0.0 {
+            self.error / self.value.abs()
+        } else {
+            f64::INFINITY
+        }
+    }
+}
+
+/// Most G7/K15 panels one integral may use (15 evaluations each). A smooth clock integrand
+/// needs a few dozen; past this budget the remaining panels are accepted as they stand and
+/// their error estimates count in [`Quadrature::error`].
+pub const MAX_PANELS: usize = 20_000;
+
 /// ∫ₐᵇ f by adaptive bisection of G7/K15 panels until the summed error estimate is below
-/// `rel_tol` of the integral. Uses a fixed stack: no allocation.
+/// `rel_tol` of the integral, within [`MAX_PANELS`] panels and a bisection depth of 46.
 pub fn integrate(f: &impl Fn(f64) -> f64, a: f64, b: f64, rel_tol: f64) -> f64 {
+    integrate_with_error(f, a, b, rel_tol).value
+}
+
+/// As [`integrate`], with the error estimate, so that a caller can check it.
+pub fn integrate_with_error(f: &impl Fn(f64) -> f64, a: f64, b: f64, rel_tol: f64) -> Quadrature {
     const DEPTH: usize = 48;
     if a == b {
-        return 0.0;
+        return Quadrature {
+            value: 0.0,
+            error: 0.0,
+        };
     }
     let (whole, err) = gk15(f, a, b);
-    if err <= rel_tol * whole.abs() {
-        return whole;
+    if err <= rel_tol * whole.abs() || !whole.is_finite() {
+        return Quadrature {
+            value: whole,
+            error: err,
+        };
     }
-    // Depth-first refinement; each panel is accepted when its error is within its share.
+    // Depth-first refinement; each panel is accepted when its error is within its share, at
+    // the depth limit, or once the panel budget is spent.
     let mut stack = [(0.0f64, 0.0f64, 0u32); DEPTH];
     let mut top = 1;
     stack[0] = (a, b, 0);
     let mut total = 0.0;
+    let mut error = 0.0;
+    let mut panels = 1;
     let budget = rel_tol * whole.abs();
     let width = b - a;
     while top > 0 {
         top -= 1;
         let (lo, hi, level) = stack[top];
         let (v, e) = gk15(f, lo, hi);
-        if e <= budget * (hi - lo) / width || level as usize >= DEPTH - 2 || top + 2 > DEPTH {
+        panels += 1;
+        let accept = e <= budget * (hi - lo) / width
+            || level as usize >= DEPTH - 2
+            || top + 2 > DEPTH
+            || panels >= MAX_PANELS;
+        if accept {
             total += v;
+            error += e;
         } else {
             let mid = 0.5 * (lo + hi);
             stack[top] = (mid, hi, level + 1);
@@ -646,13 +712,29 @@ pub fn integrate(f: &impl Fn(f64) -> f64, a: f64, b: f64, rel_tol: f64) -> f64 {
             top += 2;
         }
     }
-    total
+    Quadrature {
+        value: total,
+        error,
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn quadrature_is_bounded_and_reports_its_error() {
+        // sin(1/x) oscillates without end near 0: the panel budget stops the bisection and the
+        // error estimate says the integral is not to the tolerance asked.
+        let q = integrate_with_error(&|x: f64| (1.0 / x).sin(), 1e-12, 1.0, 1e-14);
+        assert!(q.value.is_finite());
+        assert!(q.relative_error() > 1e-14, "{q:?}");
+        // A smooth integrand meets its tolerance: ∫₀¹ eˣ dx = e − 1 (analytic).
+        let q = integrate_with_error(&|x: f64| x.exp(), 0.0, 1.0, 1e-12);
+        assert!(q.relative_error() <= 1e-12);
+        assert_relative_eq!(q.value, std::f64::consts::E - 1.0, max_relative = 1e-13);
+    }
 
     #[test]
     fn gauss_kronrod_integrates_known_functions() {

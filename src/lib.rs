@@ -41,27 +41,44 @@ use error::{Result, SpecSource};
 pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
     let spec = spec::load(source)?;
     let solution = solve::solve(&spec)?;
-    let mixing = mixing::split(&spec, &solution)?;
-    let totals = totals::compute(&spec, &solution);
+    report_of(&spec, &solution)
+}
+
+/// The mixing sheet and the stock sheet of one spec from one solve.
+pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, report::StockSheet)> {
+    let spec = spec::load(source)?;
+    let solution = solve::solve(&spec)?;
+    Ok((report_of(&spec, &solution)?, stock_sheet(&spec, &solution)))
+}
+
+fn report_of(spec: &spec::Spec, solution: &solve::Solution) -> Result<report::PlanReport> {
+    let mixing = mixing::split(spec, solution)?;
+    let totals = totals::compute(spec, solution);
     let initial: Vec<_> = solution
         .runs
         .iter()
         .map(|r| r.concentrations.clone())
         .collect();
-    let forecast = forecast::forecast(&spec, &initial);
+    let forecast = forecast::forecast(spec, &initial);
     let uncertainty: Vec<_> = solution
         .runs
         .iter()
-        .map(|r| uncertainty::propagate(&spec, r))
+        .map(|r| uncertainty::propagate(spec, r))
         .collect();
     Ok(report::build(
-        &spec,
-        &solution,
+        spec,
+        solution,
         &mixing,
         &totals,
         forecast.as_ref(),
         &uncertainty,
     ))
+}
+
+fn stock_sheet(spec: &spec::Spec, solution: &solve::Solution) -> report::StockSheet {
+    let totals = totals::compute(spec, solution);
+    let preps = recipes::prepare(spec, &totals);
+    report::build_stocks(spec, &preps)
 }
 
 /// Forecast clock times from the target concentrations alone (no stocks or glassware needed).
@@ -81,9 +98,7 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
 pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
     let spec = spec::load(source)?;
     let solution = solve::solve(&spec)?;
-    let totals = totals::compute(&spec, &solution);
-    let preps = recipes::prepare(&spec, &totals);
-    Ok(report::build_stocks(&spec, &preps))
+    Ok(stock_sheet(&spec, &solution))
 }
 
 /// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,

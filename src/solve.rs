@@ -27,7 +27,22 @@ use std::collections::HashMap;
 use std::ops::Range;
 
 /// Safety net against a runaway branch-and-bound; a normal run solves in milliseconds.
-const TIME_LIMIT_S: f64 = 30.0;
+/// Longest one solve may take by default, s (`CLOCKPREP_SOLVE_TIMEOUT` overrides it). A run's
+/// models solve in milliseconds; a model still open after this long is refused as "no recipe
+/// found in time", never used half-solved (an incumbent found under a time limit would make
+/// the output depend on the machine's speed).
+pub const TIME_LIMIT_S: f64 = 5.0;
+
+/// The time limit of one solve, s.
+pub fn time_limit() -> f64 {
+    std::env::var("CLOCKPREP_SOLVE_TIMEOUT")
+        .ok()
+        .and_then(|v| v.trim().parse::<f64>().ok())
+        .filter(|s| s.is_finite() && *s >= 0.0)
+        .unwrap_or(TIME_LIMIT_S)
+}
+/// The solver's word for a solve stopped by [`TIME_LIMIT_S`].
+const TIMED_OUT: &str = "clockprep: the solve reached its time limit";
 
 /// A best deliverable recipe further off than this (or ten tolerances) is reported as no
 /// recipe (exit 2) rather than flagged (exit 1).
@@ -101,13 +116,17 @@ pub struct Solution {
 }
 
 /// Fixed parts of every run: the timing stock and fixed additions.
+/// What is the same for every run: the constant additions, their volume, and the solver's
+/// time limit (read once per plan).
 struct Constant {
     additions: Vec<Addition>,
     volume: f64,
+    time_limit: f64,
 }
 
 /// Solve every run of the plan.
 pub fn solve(spec: &Spec) -> Result<Solution> {
+    check_distinct_runs(spec)?;
     let constant = constant_additions(spec)?;
     check_reachable_low(spec)?;
     let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
@@ -284,7 +303,32 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
         });
     }
     let volume = additions.iter().map(|a| a.volume).sum();
-    Ok(Constant { additions, volume })
+    Ok(Constant {
+        additions,
+        volume,
+        time_limit: time_limit(),
+    })
+}
+
+/// At most [`limits::DISTINCT_RUNS`] distinct target sets are solved in one plan.
+fn check_distinct_runs(spec: &Spec) -> Result<()> {
+    let limit = crate::spec::limits::DISTINCT_RUNS;
+    let mut seen = std::collections::HashSet::new();
+    for run in &spec.runs {
+        if seen.insert(targets_key(run)) && seen.len() > limit {
+            return Err(spec.source.error(
+                run.span.clone(),
+                format!(
+                    "run '{}' is distinct set of targets number {}; a plan solves at most {limit}",
+                    run.name,
+                    limit + 1
+                ),
+                "too many distinct runs",
+                format!("split the plan into specs of at most {limit} distinct target sets (runs with identical targets count once); forecast-only specs may list up to {} runs", crate::spec::limits::RUNS),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// Refuse, before any solver runs, a target so small that the least any allowed device can
@@ -384,6 +428,8 @@ struct RunModel<'a> {
     /// Volume left for varied stocks and water (mL).
     free_ml: f64,
     goals: Vec<GoalRow>,
+    /// s per solve
+    time_limit: f64,
 }
 
 struct GoalRow {
@@ -460,6 +506,7 @@ impl<'a> RunModel<'a> {
             vary,
             free_ml: (spec.total_volume - constant.volume) * 1e3,
             goals,
+            time_limit: constant.time_limit,
         }
     }
 
@@ -680,11 +727,17 @@ fn solve_model(
     let mut model = vars
         .minimise(objective)
         .using(microlp)
-        .with_time_limit(TIME_LIMIT_S);
+        .with_time_limit(m.time_limit);
     for c in cons {
         model = model.with(c);
     }
-    let sol = model.solve()?;
+    let sol = model.solve().map_err(|e| match e {
+        ResolutionError::Other(m) if m.contains("Time limit") => ResolutionError::Other(TIMED_OUT),
+        e => e,
+    })?;
+    if !matches!(sol.status(), good_lp::SolutionStatus::Optimal) {
+        return Err(ResolutionError::Other(TIMED_OUT));
+    }
 
     let read = |dv: &DeliveryVars| -> Delivery {
         let parts = dv
@@ -735,7 +788,7 @@ fn solve_tiers(m: &RunModel, relax: Relax) -> std::result::Result<Outcome, Resol
             species_cap: Some(first.z_species),
             ionic_cap: None,
         };
-        solve_model(m, relax, stage).unwrap_or(first)
+        keep_on_infeasible(solve_model(m, relax, stage), first)?
     } else {
         first
     };
@@ -747,7 +800,20 @@ fn solve_tiers(m: &RunModel, relax: Relax) -> std::result::Result<Outcome, Resol
         species_cap: Some(second.z_species),
         ionic_cap: held.then_some(second.z_ionic),
     };
-    Ok(solve_model(m, relax, stage).unwrap_or(second))
+    keep_on_infeasible(solve_model(m, relax, stage), second)
+}
+
+/// A later tier that cannot meet the earlier caps (rounding) keeps the earlier result; a solve
+/// stopped by the time limit is an error.
+fn keep_on_infeasible(
+    later: std::result::Result<Outcome, ResolutionError>,
+    earlier: Outcome,
+) -> std::result::Result<Outcome, ResolutionError> {
+    match later {
+        Err(ResolutionError::Other(m)) if m == TIMED_OUT => Err(ResolutionError::Other(m)),
+        Err(_) => Ok(earlier),
+        ok => ok,
+    }
 }
 
 fn solve_run(
@@ -757,9 +823,22 @@ fn solve_run(
     ionic: Option<f64>,
 ) -> Result<RunSolution> {
     let m = RunModel::new(spec, run, constant, ionic);
-    let solver_error = |e: ResolutionError| Error::Solver {
-        run: run.name.clone(),
-        reason: e.to_string(),
+    let solver_error = |e: ResolutionError| {
+        match e {
+        ResolutionError::Other(why) if why == TIMED_OUT => spec.source.error(
+            run.span.clone(),
+            format!(
+                "run '{}': no best recipe found within the solver's {} s time limit",
+                run.name, m.time_limit
+            ),
+            "too slow to solve",
+            "give each stock fewer devices (devices = [...]), or fewer stocks that hold the same species",
+        ),
+        e => Error::Solver {
+            run: run.name.clone(),
+            reason: e.to_string(),
+        },
+    }
     };
     let relaxed = solve_tiers(&m, Relax::Continuous).map_err(|e| match e {
         ResolutionError::Infeasible => water_error(&m),

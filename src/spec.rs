@@ -485,12 +485,42 @@ pub fn load(source: SpecSource) -> Result<Spec> {
 
 /// Parse and check a spec for a purpose.
 pub fn load_for(source: SpecSource, purpose: Purpose) -> Result<Spec> {
+    if source.text.len() > limits::INPUT_BYTES {
+        return Err(source.error(
+            0..0,
+            format!(
+                "the spec is {} bytes, over the {} byte limit",
+                source.text.len(),
+                limits::INPUT_BYTES
+            ),
+            "too large",
+            "a spec of a few thousand runs is well under 1 MiB: check that this is the right file",
+        ));
+    }
     let raw: RawSpec = toml::from_str(&source.text).map_err(|e| toml_error(&source, e))?;
     Checker {
         src: &source,
         purpose,
     }
     .check(raw, source.clone())
+}
+
+/// Size limits, checked before any work. Generous against real use: a department's term is a
+/// few thousand runs of a few dozen distinct concentration sets, a shelf a dozen stocks.
+pub mod limits {
+    /// Bytes of a spec or a times CSV (1 MiB).
+    pub const INPUT_BYTES: usize = 1 << 20;
+    /// `[[run]]`s in one spec.
+    pub const RUNS: usize = 5_000;
+    /// Distinct target sets that `plan` solves (runs with identical targets share one solve).
+    pub const DISTINCT_RUNS: usize = 100;
+    /// `[[stock]]`s and `[[device]]`s, each.
+    pub const STOCKS: usize = 100;
+    pub const DEVICES: usize = 100;
+    /// Characters in a name (title, stock, device, run).
+    pub const NAME_CHARS: usize = 200;
+    /// Trials in a times CSV.
+    pub const TRIALS: usize = 20_000;
 }
 
 /// Map a TOML error to a located spec error.
@@ -791,7 +821,63 @@ impl Checker<'_> {
         }
     }
 
+    /// Counts and name lengths against [`limits`], before anything is checked in detail.
+    fn check_sizes(&self, raw: &RawSpec) -> Result<()> {
+        let over = |what: &str, n: usize, limit: usize, at: Range<usize>| {
+            self.err(
+                at,
+                format!("the spec has {n} {what}, over the limit of {limit}"),
+                "too many",
+                format!("split the plan into specs of at most {limit} {what}"),
+            )
+        };
+        if raw.run.len() > limits::RUNS {
+            return Err(over(
+                "runs",
+                raw.run.len(),
+                limits::RUNS,
+                raw.run[limits::RUNS].span(),
+            ));
+        }
+        if raw.stock.len() > limits::STOCKS {
+            return Err(over(
+                "stocks",
+                raw.stock.len(),
+                limits::STOCKS,
+                raw.stock[limits::STOCKS].span(),
+            ));
+        }
+        if raw.device.len() > limits::DEVICES {
+            return Err(over(
+                "devices",
+                raw.device.len(),
+                limits::DEVICES,
+                raw.device[limits::DEVICES].span(),
+            ));
+        }
+        let names = std::iter::once(&raw.plan.get_ref().title)
+            .chain(raw.stock.iter().map(|s| &s.get_ref().name))
+            .chain(raw.device.iter().map(|d| &d.get_ref().name))
+            .chain(raw.run.iter().map(|r| &r.get_ref().name));
+        for n in names {
+            let chars = n.get_ref().chars().count();
+            if chars > limits::NAME_CHARS {
+                return Err(self.err(
+                    inner(n.span(), &self.src.text),
+                    format!(
+                        "a name of {chars} characters, over the limit of {}",
+                        limits::NAME_CHARS
+                    ),
+                    "too long",
+                    "shorten it; put details in a note = \"...\"",
+                ));
+            }
+        }
+        Ok(())
+    }
+
     fn check(&self, raw: RawSpec, source: SpecSource) -> Result<Spec> {
+        self.check_sizes(&raw)?;
         let plan = raw.plan.get_ref();
         let title = plan.title.get_ref().trim().to_string();
         if title.is_empty() {
@@ -1208,6 +1294,7 @@ impl Checker<'_> {
 
         // Runs
         let mut runs: Vec<Run> = Vec::new();
+        let mut run_names: std::collections::HashSet<String> = std::collections::HashSet::new();
         for r in &raw.run {
             let rr = r.get_ref();
             let name = rr.name.get_ref().trim().to_string();
@@ -1219,7 +1306,7 @@ impl Checker<'_> {
                     "e.g. name = \"iodide doubled\"",
                 ));
             }
-            if runs.iter().any(|o| o.name == name) {
+            if !run_names.insert(name.clone()) {
                 return Err(self.err(
                     inner(rr.name.span(), &self.src.text),
                     format!("two runs are named '{name}'"),
