@@ -185,7 +185,7 @@ pub fn inline(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> Pre
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::solve::Flag;
+    use crate::flag::Flag;
 
     fn forecast(t: f64, flagged: bool) -> ForecastReport {
         ForecastReport {

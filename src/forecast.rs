@@ -3,8 +3,8 @@
 //! assumption (small conversion) and the lab period. A forecast is a planning aid from a prior
 //! rate law, never a guarantee.
 
+use crate::flag::Flag;
 use crate::kinetics::{NoClock, RunKinetics, Timing, QUADRATURE_ACCEPTED};
-use crate::solve::Flag;
 use crate::spec::Spec;
 
 /// Largest fraction of a reactant that may be used up by the clock before the initial-rate

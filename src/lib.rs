@@ -17,6 +17,7 @@ pub mod device;
 pub mod error;
 pub mod export;
 pub mod fit;
+pub mod flag;
 pub mod forecast;
 pub mod kinetics;
 pub mod mixing;

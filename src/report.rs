@@ -1,11 +1,12 @@
 //! The plan as data: everything a sheet shows, with units in every field name, built once from
 //! the stages before it. Exporters only format this; they compute nothing.
 
+use crate::flag::Flag;
 use crate::forecast::{Forecast, RunForecast};
 use crate::kinetics::Reaction;
 use crate::mixing::{Mixing, Portion};
 use crate::safety;
-use crate::solve::{Flag, Solution};
+use crate::solve::Solution;
 use crate::spec::Spec;
 use crate::totals::Totals;
 use crate::uncertainty::RunUncertainty;

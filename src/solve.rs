@@ -70,12 +70,7 @@ pub struct Goal {
     pub deviation: f64,
 }
 
-/// A reason to look twice at a run; machine-readable code plus text.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct Flag {
-    pub code: &'static str,
-    pub message: String,
-}
+use crate::flag::Flag;
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct RunSolution {

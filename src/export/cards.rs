@@ -149,7 +149,7 @@ fn forecast_line(run: &RunReport) -> Markup {
 }
 
 /// Every flag of a run (its recipe's and its forecast's), in words.
-fn run_flags(run: &RunReport) -> Vec<&crate::solve::Flag> {
+fn run_flags(run: &RunReport) -> Vec<&crate::flag::Flag> {
     run.flags
         .iter()
         .chain(run.forecast.iter().flat_map(|f| f.warnings.iter()))

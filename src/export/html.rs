@@ -1,10 +1,10 @@
 use super::text::secs;
 use super::{ml_decimals, sig, Exporter};
 use crate::chart;
+use crate::flag::Flag;
 use crate::report::{
     ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, StockSheet,
 };
-use crate::solve::Flag;
 use maud::{html, Markup, DOCTYPE};
 
 /// Printable HTML sheets (maud escapes every piece of user text).

@@ -1,9 +1,9 @@
 use super::text::secs;
 use super::{ml_decimals, sig, Exporter};
+use crate::flag::Flag;
 use crate::report::{
     ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, StockSheet,
 };
-use crate::solve::Flag;
 use std::fmt::Write;
 
 /// The mixing sheet as Markdown (for a course wiki or a printed handout).

@@ -1,9 +1,9 @@
 use super::{ml_decimals, sig, Exporter};
+use crate::flag::Flag;
 use crate::report::{
     ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport,
     StockSheet,
 };
-use crate::solve::Flag;
 use std::fmt::Write;
 
 /// The mixing sheet as aligned plain text, units in every header.
