@@ -41,6 +41,8 @@ pub fn time_limit() -> f64 {
         .filter(|s| s.is_finite() && *s >= 0.0)
         .unwrap_or(TIME_LIMIT_S)
 }
+/// The solver's word for a model it could not handle numerically.
+const SOLVER_PANICKED: &str = "clockprep: the solver could not handle the numbers";
 /// The solver's word for a solve stopped by [`TIME_LIMIT_S`].
 const TIMED_OUT: &str = "clockprep: the solve reached its time limit";
 
@@ -124,6 +126,7 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
     check_distinct_runs(spec)?;
     let constant = constant_additions(spec)?;
     check_reachable_low(spec)?;
+    check_hold_reachable(spec, &constant)?;
     let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
         None => None,
         Some(IonicTarget::Value(v)) => Some(v),
@@ -270,6 +273,20 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
             help,
         )
     })?;
+    if delivery.parts.is_empty() {
+        return Err(spec.source.error(
+            t.span.clone(),
+            format!(
+                "{} {} needs {} mL of '{}': too little to deliver",
+                t.species,
+                units::concentration(t.concentration),
+                units::sig3(v_timing * 1e3),
+                stock.name
+            ),
+            "too small",
+            "raise the timing concentration, or use a more dilute timing stock",
+        ));
+    }
     additions.push(Addition {
         stock: Some(timing_stock),
         volume: v_timing,
@@ -322,6 +339,39 @@ fn check_distinct_runs(spec: &Spec) -> Result<()> {
                 format!("split the plan into specs of at most {limit} distinct target sets (runs with identical targets count once); forecast-only specs may list up to {} runs", crate::spec::limits::RUNS),
             ));
         }
+    }
+    Ok(())
+}
+
+/// A held ionic strength below what the additions made to every run (timing stock, fixed
+/// volumes) already give cannot be reached by adding salt: refuse it before any solve.
+fn check_hold_reachable(spec: &Spec, constant: &Constant) -> Result<()> {
+    let Some(hold) = &spec.ionic else {
+        return Ok(());
+    };
+    let IonicTarget::Value(target) = hold.target else {
+        return Ok(());
+    };
+    let floor: f64 = constant
+        .additions
+        .iter()
+        .filter_map(|a| a.stock.map(|s| spec.stocks[s].ionic_strength() * a.volume))
+        .sum::<f64>()
+        / spec.total_volume;
+    if target < floor * (1.0 - spec.tolerance) {
+        return Err(spec.source.error(
+            hold.span.clone(),
+            format!(
+                "hold = {} is below the {} that the timing stock and fixed additions alone give every run",
+                units::concentration(target),
+                units::concentration(floor)
+            ),
+            "unreachable",
+            format!(
+                "hold the ionic strength at {} or more, or use hold = \"max\"",
+                units::concentration(floor)
+            ),
+        ));
     }
     Ok(())
 }
@@ -388,6 +438,9 @@ pub const TIMING_SNAP: f64 = 1e-5;
 
 /// A volume in mL without trailing zeros, for messages ("0.37", "3", "12.5").
 fn trim_ml(litres: f64) -> String {
+    if litres.abs() < 1e-7 {
+        return units::sig3(litres * 1e3); // less than 0.0001 mL
+    }
     let s = format!("{:.4}", litres * 1e3);
     let s = s.trim_end_matches('0').trim_end_matches('.');
     s.to_string()
@@ -726,7 +779,10 @@ fn solve_model(
     for c in cons {
         model = model.with(c);
     }
-    let sol = model.solve().map_err(|e| match e {
+    // microlp asserts on numbers it cannot condition; such a run is refused, not a crash.
+    let solved = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| model.solve()))
+        .map_err(|_| ResolutionError::Other(SOLVER_PANICKED))?;
+    let sol = solved.map_err(|e| match e {
         ResolutionError::Other(m) if m.contains("Time limit") => ResolutionError::Other(TIMED_OUT),
         e => e,
     })?;
@@ -828,6 +884,12 @@ fn solve_run(
             ),
             "too slow to solve",
             "give each stock fewer devices (devices = [...]), or fewer stocks that hold the same species",
+        ),
+        ResolutionError::Other(why) if why == SOLVER_PANICKED => spec.source.error(
+            run.span.clone(),
+            format!("run '{}': the solver cannot work with these numbers (concentrations or a held ionic strength many decades apart)", run.name),
+            "numbers too far apart",
+            "check the run's targets, the stocks' concentrations and [ionic_strength] hold for a misplaced exponent",
         ),
         e => Error::Solver {
             run: run.name.clone(),

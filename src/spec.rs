@@ -523,6 +523,18 @@ pub mod limits {
     pub const TRIALS: usize = 20_000;
 }
 
+/// The range a positive quantity of a kind may take (internal units), and the words for it.
+/// Far wider than any clock lab needs (common practice), narrow enough that a denormal or an
+/// overflow never reaches the solver: 1 pM to 100 M, 1 nL to 1000 L, 1 ms to a week.
+fn lab_range(kind: Kind) -> Option<(f64, f64, &'static str)> {
+    match kind {
+        Kind::Concentration => Some((1e-12, 100.0, "1 pM to 100 M")),
+        Kind::Volume => Some((1e-9, 1000.0, "1 nL to 1000 L")),
+        Kind::Time => Some((1e-3, 604_800.0, "1 ms to a week")),
+        _ => None,
+    }
+}
+
 /// Map a TOML error to a located spec error.
 fn toml_error(source: &SpecSource, e: toml::de::Error) -> Error {
     let span = e.span().unwrap_or(0..0);
@@ -780,6 +792,22 @@ impl Checker<'_> {
                 "not positive",
                 format!("give a positive value, e.g. {field} = {}", kind.example()),
             ));
+        }
+        if let Some((lo, hi, words)) = lab_range(kind) {
+            if !(lo..=hi).contains(&v) {
+                return Err(self.err(
+                    inner(q.span(), &self.src.text),
+                    format!(
+                        "{field}: {} is outside what a teaching lab uses ({words})",
+                        units::sig3(v)
+                    ),
+                    "out of range",
+                    format!(
+                        "check the number and its unit, e.g. {field} = {}",
+                        kind.example()
+                    ),
+                ));
+            }
         }
         Ok(v)
     }

@@ -524,3 +524,44 @@ fn sampled_mutants_through_the_binary_exit_0_1_or_2_and_write_nothing_on_error()
         }
     }
 }
+
+/// Mutants the fuzzer found that once panicked, each as an edit of a demo spec; every one
+/// must now be refused with a location.
+const FOUND: &[(&str, &str, &str)] = &[
+    // A denormal timing concentration: no timing volume at all, and the report panicked.
+    (
+        common::BROMATE,
+        "concentration = \"0.100 mM\"",
+        "concentration = \"1e-320 mM\"",
+    ),
+    (
+        common::PERSULFATE,
+        "concentration = \"0.800 mM\"",
+        "concentration = \"1e-320 mM\"",
+    ),
+    // A denormal held ionic strength: microlp's dual simplex asserted on non-finite norms.
+    (
+        common::PERSULFATE,
+        "hold = \"0.180 M\"",
+        "hold = \"1e-320 M\"",
+    ),
+    // In range, but below what the timing stock alone gives: the LP was hopelessly scaled.
+    (
+        common::PERSULFATE,
+        "hold = \"0.180 M\"",
+        "hold = \"1e-12 M\"",
+    ),
+];
+
+#[test]
+fn mutants_that_once_panicked_are_refused_with_a_location() {
+    for (base, from, to) in FOUND {
+        let text = common::edit(base, from, to);
+        let outcome = catch_unwind(AssertUnwindSafe(|| exercise_spec(&text)));
+        match outcome {
+            Err(_) => panic!("{to}: panicked"),
+            Ok(Ok(())) => panic!("{to}: accepted"),
+            Ok(Err(e)) => assert!(is_located(&e), "{to}: {e}"),
+        }
+    }
+}
