@@ -799,7 +799,11 @@ impl Checker<'_> {
                     inner(q.span(), &self.src.text),
                     format!(
                         "{field}: {} is outside what a teaching lab uses ({words})",
-                        units::sig3(v)
+                        match kind {
+                            Kind::Concentration => units::concentration(v),
+                            Kind::Volume => format!("{} mL", units::sig3(v * 1e3)),
+                            _ => format!("{} s", units::sig3(v)),
+                        }
                     ),
                     "out of range",
                     format!(

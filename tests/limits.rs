@@ -140,3 +140,34 @@ fn every_format_and_the_cards_are_byte_identical_run_to_run() {
         assert_eq!(strip(&a), strip(&b), "{cmd} {args:?}");
     }
 }
+
+#[test]
+fn a_quantity_outside_a_labs_range_is_refused_naming_the_range() {
+    refuses_text(
+        "plan",
+        &edit(
+            BROMATE,
+            "concentration = \"0.100 mM\"",
+            "concentration = \"1e-320 mM\"",
+        ),
+        "timing concentration: 9.88e-318 µM is outside what a teaching lab uses (1 pM to 100 M)",
+    );
+    refuses_text(
+        "plan",
+        &edit(
+            BROMATE,
+            "total_volume = \"50.0 mL\"",
+            "total_volume = \"5e6 L\"",
+        ),
+        "outside what a teaching lab uses (1 nL to 1000 L)",
+    );
+}
+
+#[test]
+fn a_held_ionic_strength_below_the_timing_stocks_is_refused() {
+    refuses_text(
+        "plan",
+        &edit(PERSULFATE, "hold = \"0.180 M\"", "hold = \"1.00 mM\""),
+        "hold = 1.00 mM is below the 2.40 mM that the timing stock and fixed additions alone give",
+    );
+}
