@@ -234,8 +234,8 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
                 emit(&html, output.as_deref(), force, &[&spec])?;
             }
             if let Some(pdf_path) = pdf {
-                let browser = crate::pdf::find_browser().ok_or(Error::NoBrowser)?;
-                let bytes = crate::pdf::html_to_pdf(&html, &browser)?;
+                let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
+                let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
                 crate::output::write_file(&pdf_path, &bytes, force, &[&spec])?;
             }
             Ok(if report.flagged {

@@ -9,30 +9,17 @@
 //! (stock sheet), [`chart`](mod@chart), [`fit`](mod@fit), [`design`](mod@design) and
 //! [`tune`](mod@tune).
 
-pub mod chart;
-pub mod chem;
 pub mod cli;
-pub mod design;
-pub mod device;
 pub mod error;
 pub mod export;
-pub mod fit;
 pub mod flag;
-pub mod forecast;
 pub mod kinetics;
-pub mod mixing;
+pub mod lab;
 pub mod output;
-pub mod pdf;
-pub mod presets;
-pub mod recipes;
+pub mod reference;
 pub mod report;
-pub mod safety;
 pub mod solve;
 pub mod spec;
-pub mod species;
-pub mod totals;
-pub mod tune;
-pub mod uncertainty;
 pub mod units;
 
 use error::{Result, SpecSource};
@@ -53,18 +40,18 @@ pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, repor
 }
 
 fn report_of(spec: &spec::Spec, solution: &solve::Solution) -> Result<report::PlanReport> {
-    let mixing = mixing::split(spec, solution)?;
-    let totals = totals::compute(spec, solution);
+    let mixing = lab::portions::split(spec, solution)?;
+    let totals = lab::totals::compute(spec, solution);
     let initial: Vec<_> = solution
         .runs
         .iter()
         .map(|r| r.concentrations.clone())
         .collect();
-    let forecast = forecast::forecast(spec, &initial);
+    let forecast = kinetics::forecast::forecast(spec, &initial);
     let uncertainty: Vec<_> = solution
         .runs
         .iter()
-        .map(|r| uncertainty::propagate(spec, r))
+        .map(|r| lab::uncertainty::propagate(spec, r))
         .collect();
     Ok(report::build(
         spec,
@@ -77,8 +64,8 @@ fn report_of(spec: &spec::Spec, solution: &solve::Solution) -> Result<report::Pl
 }
 
 fn stock_sheet(spec: &spec::Spec, solution: &solve::Solution) -> report::StockSheet {
-    let totals = totals::compute(spec, solution);
-    let preps = recipes::prepare(spec, &totals);
+    let totals = lab::totals::compute(spec, solution);
+    let preps = lab::recipes::prepare(spec, &totals);
     report::build_stocks(spec, &preps)
 }
 
@@ -91,7 +78,7 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
         .map(|r| r.target_concentrations())
         .collect();
     let forecast =
-        forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");
+        kinetics::forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");
     Ok(report::build_forecast(&spec, &forecast))
 }
 
@@ -115,7 +102,7 @@ pub fn chart(source: SpecSource) -> Result<(String, bool)> {
             .as_ref()
             .ok_or_else(|| no_reaction(&report.spec))?;
         Ok((
-            chart::svg(
+            export::chart::svg(
                 &report.title,
                 &report.chart_rows(),
                 (s.window_s[0], s.window_s[1]),
@@ -127,7 +114,7 @@ pub fn chart(source: SpecSource) -> Result<(String, bool)> {
         let sheet = forecast_only(source)?;
         let s = &sheet.forecast_settings;
         Ok((
-            chart::svg(
+            export::chart::svg(
                 &sheet.title,
                 &sheet.chart_rows(),
                 (s.window_s[0], s.window_s[1]),
@@ -187,7 +174,7 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
         None => Vec::new(),
         // Every order held at the prior's value: fit k (and Ea) alone.
         Some(text) if text.trim() == "prior" => prior,
-        Some(text) => fit::parse_orders(text, &species).map_err(|e| {
+        Some(text) => kinetics::fit::parse_orders(text, &species).map_err(|e| {
             SpecSource::new("--orders", text).error(
                 0..text.len(),
                 e,
@@ -196,10 +183,10 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
             )
         })?,
     };
-    let trials = fit::read_times(&times, &spec)?;
-    let result = fit::fit(&spec, &initial, &trials, &fit::Options { fixed })?;
+    let trials = kinetics::fit::read_times(&times, &spec)?;
+    let result = kinetics::fit::fit(&spec, &initial, &trials, &kinetics::fit::Options { fixed })?;
     Ok((
-        fit::toml_fragment(&spec, &result, &times.name),
+        kinetics::fit::toml_fragment(&spec, &result, &times.name),
         !result.warnings.is_empty(),
     ))
 }
@@ -208,9 +195,9 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
 /// precision as comments, and whether the design carries warnings.
 pub fn design(source: SpecSource) -> Result<(String, bool)> {
     let spec = spec::load_for(source, spec::Purpose::Design)?;
-    let report = design::design(&spec);
+    let report = kinetics::design::design(&spec);
     Ok((
-        design::toml_runs(&spec, &report),
+       kinetics::design::toml_runs(&spec, &report),
         !report.warnings.is_empty(),
     ))
 }
@@ -224,7 +211,7 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let t = tune::tune(&spec, &initial).map_err(|e| {
+    let t = kinetics::tune::tune(&spec, &initial).map_err(|e| {
         spec.source.error(
             spec.source.table("[reaction]"),
             e.0,

@@ -10,7 +10,7 @@ use std::process;
 const DEMO: &str = "plans/maple-hollow-bromate.toml";
 
 fn tools() -> Option<PathBuf> {
-    let browser = clockprep::pdf::find_browser();
+    let browser = clockprep::export::pdf::find_browser();
     let poppler = process::Command::new("pdfinfo").arg("-v").output().is_ok();
     match (browser, poppler) {
         (Some(b), true) => Some(b),
@@ -91,7 +91,7 @@ document.body.appendChild(n);
     let probed = dir.path().join("probe.html");
     std::fs::write(&probed, text.replace("</body>", probe)).unwrap();
     let out = process::Command::new(browser)
-        .args(clockprep::pdf::HEADLESS)
+        .args(clockprep::export::pdf::HEADLESS)
         .arg(format!(
             "--user-data-dir={}",
             dir.path().join("profile").display()

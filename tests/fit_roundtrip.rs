@@ -2,7 +2,7 @@
 //! against an SVD solve from nalgebra.
 
 use clockprep::error::SpecSource;
-use clockprep::fit::{fit, least_squares, Options, Trial};
+use clockprep::kinetics::fit::{fit, least_squares, Options, Trial};
 use clockprep::kinetics::RunKinetics;
 use nalgebra::{DMatrix, DVector};
 

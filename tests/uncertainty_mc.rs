@@ -5,7 +5,7 @@
 
 use clockprep::error::SpecSource;
 use clockprep::kinetics::RunKinetics;
-use clockprep::uncertainty::{propagate, tolerance};
+use clockprep::lab::uncertainty::{propagate, tolerance};
 
 /// SplitMix64: a small, well-known seeded generator (Steele, Lea & Flood, OOPSLA 2014).
 struct Rng(u64);

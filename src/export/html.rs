@@ -1,6 +1,6 @@
 use super::text::secs;
 use super::{ml_decimals, sig, Exporter};
-use crate::chart;
+use crate::export::chart;
 use crate::flag::Flag;
 use crate::report::{
     ForecastReport, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, StockSheet,

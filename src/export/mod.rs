@@ -2,6 +2,8 @@
 //! one trait. The CLI decides where the bytes go.
 
 pub mod cards;
+pub mod chart;
+pub mod pdf;
 mod csv;
 mod html;
 mod json;

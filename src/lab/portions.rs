@@ -6,7 +6,7 @@
 //! vessels are closest in volume over all runs (ties: the first in a fixed order, so output is
 //! deterministic). Water is then split so the two vessels are as equal as the glassware allows.
 
-use crate::device::{find_delivery, Delivery};
+use crate::reference::glassware::{find_delivery, Delivery};
 use crate::error::Result;
 use crate::solve::Solution;
 use crate::spec::{Spec, Vessel, WaterVessel};

@@ -435,7 +435,7 @@ pub fn parse_orders(
             let (s, v) = p
                 .split_once('=')
                 .ok_or_else(|| format!("'{p}' is not species=order"))?;
-            let s = crate::species::canonical(s);
+            let s = crate::reference::species::canonical(s);
             if !species.contains(&s) {
                 return Err(format!(
                     "{s} is not in the rate law ({})",

@@ -2,14 +2,14 @@
 //! the stages before it. Exporters only format this; they compute nothing.
 
 use crate::flag::Flag;
-use crate::forecast::{Forecast, RunForecast};
+use crate::kinetics::forecast::{Forecast, RunForecast};
 use crate::kinetics::Reaction;
-use crate::mixing::{Mixing, Portion};
-use crate::safety;
+use crate::lab::portions::{Mixing, Portion};
+use crate::reference::reagents;
 use crate::solve::Solution;
 use crate::spec::Spec;
-use crate::totals::Totals;
-use crate::uncertainty::RunUncertainty;
+use crate::lab::totals::Totals;
+use crate::lab::uncertainty::RunUncertainty;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
@@ -425,7 +425,7 @@ pub fn build_forecast(spec: &Spec, forecast: &Forecast) -> ForecastSheet {
             .collect(),
         warnings: forecast.warnings.clone(),
         flagged: forecast.flagged(),
-        cautions: safety::cautions(species.iter().map(|sp| (None, vec![*sp]))),
+        cautions: reagents::cautions(species.iter().map(|sp| (None, vec![*sp]))),
     }
 }
 
@@ -622,8 +622,8 @@ pub fn build(
             })
             .collect(),
         water_total_ml: ml(totals.water),
-        cautions: safety::cautions(stocks_used.clone()),
-        reagents: safety::reagents(stocks_used)
+        cautions: reagents::cautions(stocks_used.clone()),
+        reagents: reagents::reagents(stocks_used)
             .into_iter()
             .map(|r| ReagentHazard {
                 name: r.name.clone(),
@@ -694,8 +694,8 @@ pub struct RecipeReport {
     pub text: String,
 }
 
-pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> StockSheet {
-    use crate::recipes::Action;
+pub fn build_stocks(spec: &Spec, preps: &[crate::lab::recipes::Preparation]) -> StockSheet {
+    use crate::lab::recipes::Action;
     use crate::spec::Recipe;
     let stocks = preps
         .iter()
@@ -744,7 +744,7 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> Stock
             };
             let text = if p.flask_count > 1 { format!("{text} Make {} flasks.", p.flask_count) } else { text };
             let species: Vec<&str> = st.contains.iter().map(|(s, _)| s.as_str()).collect();
-            let reagent = crate::safety::reagent_for(st.solute.as_deref(), &species);
+            let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
             StockPrep {
                 name: st.name.clone(),
                 solute: st.solute.clone(),
@@ -789,7 +789,7 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::recipes::Preparation]) -> Stock
         replicates: spec.replicates,
         overage_pct: sig10(spec.overage * 100.0),
         stocks,
-        cautions: safety::cautions(used),
+        cautions: reagents::cautions(used),
     }
 }
 
@@ -836,11 +836,11 @@ impl RunReport {
 
 impl PlanReport {
     /// The runs with a forecast, as rows of the forecast chart.
-    pub fn chart_rows(&self) -> Vec<crate::chart::Row<'_>> {
+    pub fn chart_rows(&self) -> Vec<crate::export::chart::Row<'_>> {
         self.runs
             .iter()
             .filter_map(|r| {
-                r.forecast.as_ref().map(|f| crate::chart::Row {
+                r.forecast.as_ref().map(|f| crate::export::chart::Row {
                     name: &r.name,
                     forecast: f,
                 })
@@ -851,10 +851,10 @@ impl PlanReport {
 
 impl ForecastSheet {
     /// Every run as a row of the forecast chart.
-    pub fn chart_rows(&self) -> Vec<crate::chart::Row<'_>> {
+    pub fn chart_rows(&self) -> Vec<crate::export::chart::Row<'_>> {
         self.runs
             .iter()
-            .map(|r| crate::chart::Row {
+            .map(|r| crate::export::chart::Row {
                 name: &r.name,
                 forecast: &r.forecast,
             })

@@ -7,7 +7,7 @@
 //! pipette's random error is a standard deviation. Volumetric pipet fills and separate
 //! additions are independent.
 
-use crate::device::{Class, Delivery, Device, DeviceKind};
+use crate::reference::glassware::{Class, Delivery, Device, DeviceKind};
 use crate::kinetics::RunKinetics;
 use crate::solve::RunSolution;
 use crate::spec::Spec;
@@ -48,7 +48,7 @@ type Parsed = (DeviceKind, f64, f64, f64, String, bool);
 fn table() -> &'static Vec<Parsed> {
     static T: OnceLock<Vec<Parsed>> = OnceLock::new();
     T.get_or_init(|| {
-        let t: Table = toml::from_str(include_str!("data/tolerances.toml"))
+        let t: Table = toml::from_str(include_str!("../reference/data/tolerances.toml"))
             .expect("the tolerance table is valid (unit-tested)");
         t.row
             .into_iter()

@@ -13,6 +13,11 @@
 //! reagent is gone the main reaction alone runs, and the intermediate builds up to the visible
 //! threshold (when one is given) over a further integral of the same form.
 
+pub mod design;
+pub mod fit;
+pub mod forecast;
+pub mod tune;
+
 use std::fmt;
 
 /// Molar gas constant, J mol⁻¹ K⁻¹ (CODATA 2018, exact since the 2019 SI redefinition).
@@ -110,7 +115,7 @@ pub fn parse_equation(text: &str) -> Result<Equation, EquationError> {
                     continue;
                 }
             }
-            let sp = match crate::species::parse(t) {
+            let sp = match crate::reference::species::parse(t) {
                 Ok(s) => s.name,
                 Err(e) => {
                     return Err(EquationError {
@@ -154,8 +159,8 @@ impl Equation {
         let mut charge = [0.0, 0.0];
         for (side_no, side) in [&self.reactants, &self.products].into_iter().enumerate() {
             for (sp, n) in side {
-                let parsed = crate::species::parse(sp).map_err(|e| e.describe())?;
-                let elements = crate::species::elements(sp).map_err(|e| e.describe())?;
+                let parsed = crate::reference::species::parse(sp).map_err(|e| e.describe())?;
+                let elements = crate::reference::species::elements(sp).map_err(|e| e.describe())?;
                 for (e, k) in elements {
                     match atoms.iter_mut().find(|(s, _)| *s == e) {
                         Some((_, sides)) => sides[side_no] += n * k,

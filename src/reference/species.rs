@@ -11,7 +11,7 @@
 //! to use: `SO4-2` (digit after the sign), an en dash or another look-alike of `-` or `+`, a
 //! name that is not a formula, or a count that reads as a charge (`Cu2+`, `SO42-`).
 
-use crate::chem;
+use crate::reference::formula;
 
 /// Fold Unicode super- and subscripts and the minus sign to ASCII, without checking anything.
 fn fold(name: &str) -> String {
@@ -196,7 +196,7 @@ pub fn parse(name: &str) -> Result<Species, SpeciesError> {
     if body.is_empty() || body.contains(['+', '-', '^']) {
         return Err(SpeciesError::BadCharge);
     }
-    let elements = chem::parse_formula(body).map_err(|e| SpeciesError::NotFormula(e.message))?;
+    let elements = formula::parse_formula(body).map_err(|e| SpeciesError::NotFormula(e.message))?;
     // A single sign after a count: "Cu2+" (Cu²⁺ meant) or "SO42-" (SO₄²⁻ meant).
     if charge.abs() == 1 && !explicit {
         let digits = body.len() - body.trim_end_matches(|c: char| c.is_ascii_digit()).len();
@@ -269,7 +269,7 @@ pub fn charge(name: &str) -> Result<i32, SpeciesError> {
 /// Element counts of a species' formula (charge left off).
 pub fn elements(name: &str) -> Result<Vec<(String, f64)>, SpeciesError> {
     let s = parse(name)?;
-    chem::parse_formula(&s.formula).map_err(|e| SpeciesError::NotFormula(e.message))
+    formula::parse_formula(&s.formula).map_err(|e| SpeciesError::NotFormula(e.message))
 }
 
 #[cfg(test)]

@@ -3,7 +3,7 @@
 //! measured in log time (geometric centring). Kept small against the reactants: no run may use
 //! up more than the conversion limit of a reactant by the clock.
 
-use crate::forecast::MAX_CONVERSION;
+use crate::kinetics::forecast::MAX_CONVERSION;
 use crate::kinetics::RunKinetics;
 use crate::spec::Spec;
 

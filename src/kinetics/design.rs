@@ -199,7 +199,7 @@ pub fn design(spec: &Spec) -> DesignReport {
                 .runs
                 .iter()
                 .map(|r| {
-                    crate::uncertainty::propagate(&designed, r)
+                    crate::lab::uncertainty::propagate(&designed, r)
                         .time
                         .unwrap_or(d.volumetric_error)
                 })
@@ -279,7 +279,7 @@ pub fn design(spec: &Spec) -> DesignReport {
     }
     // Each designed run is forecast across the temperature band, and its flags (outside the
     // window at either end, high conversion, no clock) become the design's warnings.
-    let times = match crate::forecast::forecast(
+    let times = match crate::kinetics::forecast::forecast(
         &designed,
         &runs.iter().map(|r| r.targets.clone()).collect::<Vec<_>>(),
     ) {

@@ -1,9 +1,11 @@
 //! The plan spec: TOML → checked plan. Units are read here, names are resolved here, and every
 //! problem is reported against the spec text with a hint. Nothing later re-reads the TOML.
 
-use crate::device::{Class, Device, DeviceKind};
+pub mod presets;
+
+use crate::reference::glassware::{Class, Device, DeviceKind};
 use crate::error::{Error, Result, SpecSource};
-use crate::species;
+use crate::reference::species;
 use crate::units::{self, Kind};
 use serde::de::{MapAccess, Visitor};
 use serde::{Deserialize, Deserializer};
@@ -624,7 +626,7 @@ fn formula_from_species(contains: &[(String, f64)]) -> Option<(String, f64)> {
         for &i in &order {
             let body = &parsed[i].0.formula;
             let k = n[i];
-            let simple = crate::chem::parse_formula(body)
+            let simple = crate::reference::formula::parse_formula(body)
                 .map(|e| e.len() == 1 && e[0].1 == 1.0)
                 .unwrap_or(false);
             match (k, simple) {
@@ -1440,8 +1442,8 @@ impl Checker<'_> {
                     "no [reaction] in the spec",
                     format!(
                     "add [reaction] with preset = \"{}\" (presets: {}), or spell out its rate law",
-                    crate::presets::NAMES[0],
-                    crate::presets::NAMES.join(", ")
+                    crate::spec::presets::NAMES[0],
+                    crate::spec::presets::NAMES.join(", ")
                 ),
                 ))
             }
@@ -1786,12 +1788,12 @@ impl Checker<'_> {
             None => None,
             Some(name) => {
                 let key = name.get_ref().trim();
-                let text = crate::presets::get(key).ok_or_else(|| {
+                let text = crate::spec::presets::get(key).ok_or_else(|| {
                     self.err(
                         inner(name.span(), &self.src.text),
                         format!("unknown reaction preset '{key}'"),
                         "no such preset",
-                        format!("presets: {}", crate::presets::NAMES.join(", ")),
+                        format!("presets: {}", crate::spec::presets::NAMES.join(", ")),
                     )
                 })?;
                 let src = SpecSource::new(format!("preset {key}"), text);
@@ -1810,7 +1812,7 @@ impl Checker<'_> {
                 "incomplete reaction",
                 format!(
                     "add {example}, or use a preset ({})",
-                    crate::presets::NAMES.join(", ")
+                    crate::spec::presets::NAMES.join(", ")
                 ),
             )
         };
@@ -2043,10 +2045,10 @@ impl Checker<'_> {
             (Some(solute), _) => {
                 let formula = solute.get_ref().trim().to_string();
                 let at = inner(solute.span(), &self.src.text);
-                let elements = match crate::chem::anhydrous(&formula) {
+                let elements = match crate::reference::formula::anhydrous(&formula) {
                     Ok(e) => e,
                     // A named preparation such as "starch" is fine without a formula.
-                    Err(_) if crate::safety::reagent_for(Some(&formula), &[]).is_some() => {
+                    Err(_) if crate::reference::reagents::reagent_for(Some(&formula), &[]).is_some() => {
                         return Ok(Recipe::None)
                     }
                     Err(e) => {
@@ -2071,7 +2073,7 @@ impl Checker<'_> {
                 (formula, c)
             }
         };
-        let molar_mass = crate::chem::molar_mass(&formula).map_err(|e| {
+        let molar_mass = crate::reference::formula::molar_mass(&formula).map_err(|e| {
             self.err(
                 contains_at.clone(),
                 format!("stock '{name}': formula '{formula}': {}", e.message),
@@ -2151,7 +2153,7 @@ impl Checker<'_> {
         at: Range<usize>,
         contains_at: Range<usize>,
     ) -> Result<Option<f64>> {
-        use crate::chem::{dissociation, Ion, Mismatch};
+        use crate::reference::formula::{dissociation, Ion, Mismatch};
         if contains.is_empty() {
             return Ok(stated);
         }

@@ -4,7 +4,7 @@
 //! only diluted (bench concentrates) are added with the volume the dilutions draw from them.
 
 use crate::spec::{Recipe, Spec};
-use crate::totals::{flask_for, Totals};
+use crate::lab::totals::{flask_for, Totals};
 
 #[derive(Debug, Clone, PartialEq)]
 pub enum Action {
