@@ -77,8 +77,8 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let forecast =
-        kinetics::forecast::forecast(&spec, &initial).expect("a spec read for a forecast has a reaction");
+    let forecast = kinetics::forecast::forecast(&spec, &initial)
+        .expect("a spec read for a forecast has a reaction");
     Ok(report::build_forecast(&spec, &forecast))
 }
 
@@ -197,7 +197,7 @@ pub fn design(source: SpecSource) -> Result<(String, bool)> {
     let spec = spec::load_for(source, spec::Purpose::Design)?;
     let report = kinetics::design::design(&spec);
     Ok((
-       kinetics::design::toml_runs(&spec, &report),
+        kinetics::design::toml_runs(&spec, &report),
         !report.warnings.is_empty(),
     ))
 }

@@ -3,11 +3,11 @@
 
 pub mod cards;
 pub mod chart;
-pub mod pdf;
 mod csv;
 mod html;
 mod json;
 mod markdown;
+pub mod pdf;
 mod text;
 
 use crate::report::{ForecastSheet, PlanReport, StockSheet};

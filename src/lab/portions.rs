@@ -6,8 +6,8 @@
 //! vessels are closest in volume over all runs (ties: the first in a fixed order, so output is
 //! deterministic). Water is then split so the two vessels are as equal as the glassware allows.
 
-use crate::reference::glassware::{find_delivery, Delivery};
 use crate::error::Result;
+use crate::reference::glassware::{find_delivery, Delivery};
 use crate::solve::Solution;
 use crate::spec::{Spec, Vessel, WaterVessel};
 use std::collections::BTreeSet;

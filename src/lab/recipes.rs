@@ -3,8 +3,8 @@
 //! (c·V·M / (w·ρ)), or the volume of a stronger stock to dilute (M1V1 = M2V2). Stocks that are
 //! only diluted (bench concentrates) are added with the volume the dilutions draw from them.
 
-use crate::spec::{Recipe, Spec};
 use crate::lab::totals::{flask_for, Totals};
+use crate::spec::{Recipe, Spec};
 
 #[derive(Debug, Clone, PartialEq)]
 pub enum Action {

@@ -7,8 +7,8 @@
 //! pipette's random error is a standard deviation. Volumetric pipet fills and separate
 //! additions are independent.
 
-use crate::reference::glassware::{Class, Delivery, Device, DeviceKind};
 use crate::kinetics::RunKinetics;
+use crate::reference::glassware::{Class, Delivery, Device, DeviceKind};
 use crate::solve::RunSolution;
 use crate::spec::Spec;
 use crate::units::{self, Kind};

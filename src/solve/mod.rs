@@ -15,8 +15,8 @@
 //! Before the integer model, a continuous model of the same run checks that the targets are
 //! reachable at all; when they are not, the reason is stated in the user's terms.
 
-use crate::reference::glassware::{find_delivery, find_delivery_in_two, Delivery, Device};
 use crate::error::{Error, Result};
+use crate::reference::glassware::{find_delivery, find_delivery_in_two, Delivery, Device};
 use crate::spec::{IonicTarget, Run, Spec, WaterVessel};
 use crate::units;
 use good_lp::{
