@@ -1,7 +1,9 @@
 //! Forecast throughput: one clock-time forecast (clock integral plus the visible-colour wait)
 //! for a compiled run, and the band (three temperatures). Forecasts per second = 1 / time.
 
-use clockprep::kinetics::{parse_equation, Reaction, RunKinetics, Term, Visible};
+use clockprep::kinetics::RunKinetics;
+use clockprep::reference::equation::parse_equation;
+use clockprep::spec::{Reaction, Term, Visible};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::hint::black_box;
 

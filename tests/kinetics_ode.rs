@@ -3,7 +3,9 @@
 //! iodine–thiosulfate step (k = 1e7 M⁻¹ s⁻¹). The forecast's time to visible colour (clock plus
 //! the wait for the intermediate to reach the threshold) must agree within 0.5 %.
 
-use clockprep::kinetics::{parse_equation, Reaction, RunKinetics, Term, Visible};
+use clockprep::kinetics::RunKinetics;
+use clockprep::reference::equation::parse_equation;
+use clockprep::spec::{Reaction, Term, Visible};
 use ode_solvers::{Dopri5, System, Vector5};
 
 /// Fast clock step, M⁻¹ s⁻¹: I2 + 2 S2O3^2- → 2 I- + S4O6^2-.
@@ -67,7 +69,7 @@ fn ode_time(system: Clock, y0: Vector5<f64>, t_end: f64) -> f64 {
     t0 + (THRESHOLD - a) / (b - a) * (t1 - t0)
 }
 
-fn clock_eq() -> clockprep::kinetics::Equation {
+fn clock_eq() -> clockprep::reference::equation::Equation {
     parse_equation("I2 + 2 S2O3^2- -> 2 I- + S4O6^2-").unwrap()
 }
 

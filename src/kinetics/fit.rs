@@ -1060,7 +1060,7 @@ pub fn toml_fragment(spec: &Spec, fit: &Fit, times_name: &str) -> String {
     );
     let _ = writeln!(out, "[reaction]");
     let _ = writeln!(out, "rate_species = {}", q(&reaction.rate_species));
-    let eq = |e: &crate::kinetics::Equation| {
+    let eq = |e: &crate::reference::equation::Equation| {
         let side = |v: &Vec<(String, f64)>| {
             v.iter()
                 .map(|(s, c)| {

@@ -2,6 +2,7 @@
 //! weights, reagent and hazard data, glassware kinds and tolerances. Nothing here depends on a
 //! stage of the data flow.
 
+pub mod equation;
 pub mod formula;
 pub mod glassware;
 pub mod reagents;

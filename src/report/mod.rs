@@ -3,12 +3,12 @@
 
 use crate::flag::Flag;
 use crate::kinetics::forecast::{Forecast, RunForecast};
-use crate::kinetics::Reaction;
 use crate::lab::portions::{Mixing, Portion};
 use crate::lab::totals::Totals;
 use crate::lab::uncertainty::RunUncertainty;
 use crate::reference::reagents;
 use crate::solve::Solution;
+use crate::spec::Reaction;
 use crate::spec::Spec;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};

@@ -11,11 +11,13 @@ mod devices;
 pub mod model;
 mod plan;
 pub mod presets;
+mod prior;
 mod raw;
 mod reaction;
 mod stocks;
 
 pub use model::*;
+pub use prior::*;
 pub use stocks::RATIO_TOLERANCE;
 
 use crate::error::{Result, SpecSource};

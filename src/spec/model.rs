@@ -259,7 +259,7 @@ pub struct Spec {
     pub ionic: Option<IonicHold>,
     pub runs: Vec<Run>,
     /// The prior rate law, when the spec gives one.
-    pub reaction: Option<crate::kinetics::Reaction>,
+    pub reaction: Option<crate::spec::Reaction>,
     /// Present exactly when `reaction` is.
     pub forecast: Option<ForecastSettings>,
     /// The `[design]` table, when given.

@@ -112,8 +112,9 @@ impl Checker<'_> {
         r: &Spanned<RawReaction>,
         timing: &str,
         available: &dyn Fn(&str) -> bool,
-    ) -> Result<crate::kinetics::Reaction> {
-        use crate::kinetics::{parse_equation, Reaction, Term, Visible, MAX_TERMS};
+    ) -> Result<crate::spec::Reaction> {
+        use crate::reference::equation::parse_equation;
+        use crate::spec::{Reaction, Term, Visible, MAX_TERMS};
         let raw = r.get_ref();
         let table = r.span().start..r.span().start;
         let preset = match &raw.preset {
