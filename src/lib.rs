@@ -28,33 +28,46 @@ use error::{Result, SpecSource};
 /// report.
 pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
     let spec = spec::load(source)?;
-    let solution = solve::solve(&spec)?;
-    report_of(&spec, &solution)
+    let lab = spec.need_lab()?;
+    let solution = solve::solve(&spec, lab)?;
+    report_of(&spec, lab, &solution)
 }
 
 /// The mixing sheet and the stock sheet of one spec from one solve.
 pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, report::StockSheet)> {
     let spec = spec::load(source)?;
-    let solution = solve::solve(&spec)?;
-    Ok((report_of(&spec, &solution)?, stock_sheet(&spec, &solution)))
+    let lab = spec.need_lab()?;
+    let solution = solve::solve(&spec, lab)?;
+    Ok((
+        report_of(&spec, lab, &solution)?,
+        stock_sheet(&spec, lab, &solution),
+    ))
 }
 
-fn report_of(spec: &spec::Spec, solution: &solve::Solution) -> Result<report::PlanReport> {
-    let mixing = lab::portions::split(spec, solution)?;
-    let totals = lab::totals::compute(spec, solution);
+fn report_of(
+    spec: &spec::Spec,
+    lab: &spec::Lab,
+    solution: &solve::Solution,
+) -> Result<report::PlanReport> {
+    let mixing = lab::portions::split(spec, lab, solution)?;
+    let totals = lab::totals::compute(spec, lab, solution);
     let initial: Vec<_> = solution
         .runs
         .iter()
         .map(|r| r.concentrations.clone())
         .collect();
-    let forecast = kinetics::forecast::forecast(spec, &initial);
+    let forecast = spec
+        .prior
+        .as_ref()
+        .map(|p| kinetics::forecast::forecast(spec, p, &initial));
     let uncertainty: Vec<_> = solution
         .runs
         .iter()
-        .map(|r| lab::uncertainty::propagate(spec, r))
+        .map(|r| lab::uncertainty::propagate(spec, lab, r))
         .collect();
     Ok(report::build(
         spec,
+        lab,
         solution,
         &mixing,
         &totals,
@@ -63,75 +76,52 @@ fn report_of(spec: &spec::Spec, solution: &solve::Solution) -> Result<report::Pl
     ))
 }
 
-fn stock_sheet(spec: &spec::Spec, solution: &solve::Solution) -> report::StockSheet {
-    let totals = lab::totals::compute(spec, solution);
-    let preps = lab::recipes::prepare(spec, &totals);
-    report::build_stocks(spec, &preps)
+fn stock_sheet(
+    spec: &spec::Spec,
+    lab: &spec::Lab,
+    solution: &solve::Solution,
+) -> report::StockSheet {
+    let totals = lab::totals::compute(spec, lab, solution);
+    let preps = lab::recipes::prepare(lab, &totals);
+    report::build_stocks(spec, lab, &preps)
 }
 
 /// Forecast clock times from the target concentrations alone (no stocks or glassware needed).
 pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
     let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let prior = spec.need_prior()?;
     let initial: Vec<_> = spec
         .runs
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let forecast = kinetics::forecast::forecast(&spec, &initial)
-        .expect("a spec read for a forecast has a reaction");
-    Ok(report::build_forecast(&spec, &forecast))
+    let forecast = kinetics::forecast::forecast(&spec, prior, &initial);
+    Ok(report::build_forecast(&spec, prior, &forecast))
 }
 
 /// The stock preparation sheet: what to make, in which flask, and how to weigh it up.
 pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
     let spec = spec::load(source)?;
-    let solution = solve::solve(&spec)?;
-    Ok(stock_sheet(&spec, &solution))
+    let lab = spec.need_lab()?;
+    let solution = solve::solve(&spec, lab)?;
+    Ok(stock_sheet(&spec, lab, &solution))
 }
 
 /// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,
 /// else from the target concentrations; and whether anything is flagged (as `forecast`).
 pub fn chart(source: SpecSource) -> Result<(String, bool)> {
-    let has_stocks = !spec::load_for(source.clone(), spec::Purpose::Forecast)?
-        .stocks
-        .is_empty();
-    if has_stocks {
+    let light = spec::load_for(source.clone(), spec::Purpose::Forecast)?;
+    let settings = &light.need_prior()?.settings;
+    let (window, band) = (settings.window, settings.band);
+    if light.lab.is_some() {
         let report = plan(source)?;
-        let s = report
-            .forecast_settings
-            .as_ref()
-            .ok_or_else(|| no_reaction(&report.spec))?;
-        Ok((
-            export::chart::svg(
-                &report.title,
-                &report.chart_rows(),
-                (s.window_s[0], s.window_s[1]),
-                s.band_c,
-            ),
-            report.flagged,
-        ))
+        let svg = export::chart::svg(&report.title, &report.chart_rows(), window, band);
+        Ok((svg, report.flagged))
     } else {
         let sheet = forecast_only(source)?;
-        let s = &sheet.forecast_settings;
-        Ok((
-            export::chart::svg(
-                &sheet.title,
-                &sheet.chart_rows(),
-                (s.window_s[0], s.window_s[1]),
-                s.band_c,
-            ),
-            sheet.flagged,
-        ))
+        let svg = export::chart::svg(&sheet.title, &sheet.chart_rows(), window, band);
+        Ok((svg, sheet.flagged))
     }
-}
-
-fn no_reaction(spec: &str) -> error::Error {
-    SpecSource::new(spec, "").error(
-        0..0,
-        "a chart needs a forecast, and the spec has no [reaction]",
-        "no [reaction]",
-        "add [reaction] with a preset, e.g. preset = \"bromate-iodide\"",
-    )
 }
 
 /// One run's initial concentrations: (species, mol/L).
@@ -141,7 +131,7 @@ pub type Concentrations = Vec<(String, f64)>;
 /// delivered concentrations when the spec lists stocks, else the targets.
 pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Concentrations>)> {
     let light = spec::load_for(source.clone(), spec::Purpose::Forecast)?;
-    if light.stocks.is_empty() {
+    if light.lab.is_none() {
         let initial = light
             .runs
             .iter()
@@ -150,7 +140,7 @@ pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Con
         return Ok((light, initial));
     }
     let spec = spec::load(source)?;
-    let solution = solve::solve(&spec)?;
+    let solution = solve::solve(&spec, spec.need_lab()?)?;
     let initial = solution
         .runs
         .iter()
@@ -163,10 +153,11 @@ pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Con
 /// whether the fit carries warnings (outliers, implausible orders, times far from the prior).
 pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<(String, bool)> {
     let (spec, initial) = initial_concentrations(source)?;
-    let prior: Vec<(String, f64)> = spec
+    let the_prior = spec.need_prior()?;
+    let prior: Vec<(String, f64)> = the_prior
         .reaction
-        .as_ref()
-        .and_then(|r| r.terms.first())
+        .terms
+        .first()
         .map(|t| t.orders.clone())
         .unwrap_or_default();
     let species: Vec<String> = prior.iter().map(|(s, _)| s.clone()).collect();
@@ -184,9 +175,15 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
         })?,
     };
     let trials = kinetics::fit::read_times(&times, &spec)?;
-    let result = kinetics::fit::fit(&spec, &initial, &trials, &kinetics::fit::Options { fixed })?;
+    let result = kinetics::fit::fit(
+        &spec,
+        the_prior,
+        &initial,
+        &trials,
+        &kinetics::fit::Options { fixed },
+    )?;
     Ok((
-        kinetics::fit::toml_fragment(&spec, &result, &times.name),
+        kinetics::fit::toml_fragment(&spec, the_prior, &result, &times.name),
         !result.warnings.is_empty(),
     ))
 }
@@ -195,9 +192,31 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
 /// precision as comments, and whether the design carries warnings.
 pub fn design(source: SpecSource) -> Result<(String, bool)> {
     let spec = spec::load_for(source, spec::Purpose::Design)?;
-    let report = kinetics::design::design(&spec);
+    let d = spec.need_design()?;
+    let runs = kinetics::design::generate(d);
+    let designed = kinetics::design::with_runs(&spec, &runs);
+    // Per-run volumetric error: propagated through the glassware when the spec lists it.
+    let flat = vec![d.volumetric_error; runs.len()];
+    let (volumetric, warnings) = match &designed.lab {
+        None => (flat, Vec::new()),
+        Some(lab) => match solve::solve(&designed, lab) {
+            Ok(sol) => (
+                sol.runs
+                    .iter()
+                    .map(|r| {
+                        lab::uncertainty::propagate(&designed, lab, r)
+                            .time
+                            .unwrap_or(d.volumetric_error)
+                    })
+                    .collect(),
+                Vec::new(),
+            ),
+            Err(e) => (flat, vec![format!("the designed runs cannot all be made with these stocks and glassware ({}); assumed {} % volumetric error", e.message(), d.volumetric_error * 100.0)]),
+        },
+    };
+    let report = kinetics::design::assess(&spec, d, runs, &volumetric, warnings);
     Ok((
-        kinetics::design::toml_runs(&spec, &report),
+        kinetics::design::toml_runs(&spec, d, &report),
         !report.warnings.is_empty(),
     ))
 }
@@ -211,7 +230,8 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let t = kinetics::tune::tune(&spec, &initial).map_err(|e| {
+    let prior = spec.need_prior()?;
+    let t = kinetics::tune::tune(&spec, prior, &initial).map_err(|e| {
         spec.source.error(
             spec.source.table("[reaction]"),
             e.0,
@@ -219,10 +239,7 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
             "check [reaction] and the runs",
         )
     })?;
-    let f = spec
-        .forecast
-        .as_ref()
-        .expect("a forecast spec has settings");
+    let f = &prior.settings;
     let mut out = String::new();
     let _ = writeln!(out, "Clock tuning: {}", spec.title);
     let _ = writeln!(out, "Spec: {}", spec.source.name);

@@ -34,9 +34,9 @@ fn synthetic(
     sigma: f64,
     rng: &mut Rng,
 ) -> Vec<Trial> {
-    let mut truth = spec.reaction.clone().unwrap();
+    let mut truth = spec.prior.as_ref().unwrap().reaction.clone();
     truth.terms[0].k_ref *= k_factor;
-    let t = spec.forecast.as_ref().unwrap().temperature;
+    let t = spec.prior.as_ref().unwrap().settings.temperature;
     let mut trials = Vec::new();
     for (run, c0) in initial.iter().enumerate() {
         let time = RunKinetics::new(&truth, c0, spec.timing.concentration)
@@ -68,9 +68,16 @@ fn exact_times_give_back_the_model() {
     // forecast → fit → forecast: noise-free times from k × 0.8 return k × 0.8 and the orders.
     let (spec, initial) = demo();
     let trials = synthetic(&spec, &initial, 0.8, 2, 0.0, &mut Rng(1));
-    let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
-    let prior = &spec.reaction.as_ref().unwrap().terms[0];
-    let t = spec.forecast.as_ref().unwrap().temperature;
+    let f = fit(
+        &spec,
+        spec.prior.as_ref().unwrap(),
+        &initial,
+        &trials,
+        &Options::default(),
+    )
+    .unwrap();
+    let prior = &spec.prior.as_ref().unwrap().reaction.terms[0];
+    let t = spec.prior.as_ref().unwrap().settings.temperature;
     approx::assert_relative_eq!(f.k.value, 0.8 * prior.k_at(t), max_relative = 1e-7);
     for (o, (_, n)) in f.orders.iter().zip(&prior.orders) {
         approx::assert_relative_eq!(o.estimate.value, *n, epsilon = 1e-7);
@@ -83,14 +90,21 @@ fn intervals_cover_the_truth_in_repeated_pilots() {
     // 200 seeded pilots of 3 replicates per run with 3 % timing noise: each 95 % interval must
     // contain the true value in at least 90 % of them.
     let (spec, initial) = demo();
-    let prior = spec.reaction.as_ref().unwrap().terms[0].clone();
-    let t = spec.forecast.as_ref().unwrap().temperature;
+    let prior = spec.prior.as_ref().unwrap().reaction.terms[0].clone();
+    let t = spec.prior.as_ref().unwrap().settings.temperature;
     let true_k = 1.3 * prior.k_at(t);
     let mut covered = vec![0usize; 1 + prior.orders.len()];
     let seeds = 200;
     for seed in 0..seeds {
         let trials = synthetic(&spec, &initial, 1.3, 3, 0.03, &mut Rng(seed));
-        let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
+        let f = fit(
+            &spec,
+            spec.prior.as_ref().unwrap(),
+            &initial,
+            &trials,
+            &Options::default(),
+        )
+        .unwrap();
         if (f.k.low..=f.k.high).contains(&true_k) {
             covered[0] += 1;
         }
@@ -144,7 +158,7 @@ fn two_temperatures_give_the_activation_energy() {
     // the fit returns 62 kJ/mol and k at the prior's reference temperature (Arrhenius,
     // R from CODATA 2018).
     let (spec, initial) = demo();
-    let mut truth = spec.reaction.clone().unwrap();
+    let mut truth = spec.prior.as_ref().unwrap().reaction.clone();
     truth.terms[0].activation_energy = Some(62_000.0);
     let mut trials = Vec::new();
     for (run, c0) in initial.iter().enumerate() {
@@ -162,7 +176,14 @@ fn two_temperatures_give_the_activation_energy() {
             });
         }
     }
-    let f = fit(&spec, &initial, &trials, &Options::default()).unwrap();
+    let f = fit(
+        &spec,
+        spec.prior.as_ref().unwrap(),
+        &initial,
+        &trials,
+        &Options::default(),
+    )
+    .unwrap();
     assert!(f.ea_fitted);
     approx::assert_relative_eq!(
         f.activation_energy.unwrap().value,

@@ -321,7 +321,7 @@ fn exercise_spec(text: &str) -> Result<(), Error> {
     use clockprep::export::{self, cards, Format};
     let src = || SpecSource::new("mutant.toml", text);
     let light = clockprep::spec::load_for(src(), clockprep::spec::Purpose::Forecast)?;
-    if light.stocks.is_empty() {
+    if light.lab.is_none() {
         let sheet = clockprep::forecast_only(src())?;
         for f in [
             Format::Text,

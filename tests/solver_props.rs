@@ -103,18 +103,19 @@ proptest! {
     fn recipes_are_deliverable_exact_and_optimal(c in case()) {
         let text = spec_text(&c);
         let spec = clockprep::spec::load(SpecSource::new("prop.toml", text)).unwrap();
-        let sol = clockprep::solve::solve(&spec).unwrap();
-        let timing = spec.timing_stock();
+        let lab = spec.lab.as_ref().unwrap();
+        let sol = clockprep::solve::solve(&spec, lab).unwrap();
+        let timing = lab.timing_stock;
         let first_timing = sol.runs[0].volume_of(timing);
         for (r, run) in sol.runs.iter().zip(&c.runs) {
             // Sum to the total within 1e-9 mL.
             let sum: f64 = r.additions.iter().map(|a| a.volume).sum();
-            prop_assert!((sum - spec.total_volume).abs() * 1e3 < 1e-9, "sum {sum}");
+            prop_assert!((sum - lab.total_volume).abs() * 1e3 < 1e-9, "sum {sum}");
             // Each volume is what its devices deliver, each part inside the device's range.
             for a in &r.additions {
-                prop_assert!((a.delivery.volume(&spec.devices) - a.volume).abs() < 1e-15);
+                prop_assert!((a.delivery.volume(&lab.devices) - a.volume).abs() < 1e-15);
                 for &(d, n) in &a.delivery.parts {
-                    let dev = &spec.devices[d];
+                    let dev = &lab.devices[d];
                     let (lo, hi) = dev.count_range();
                     prop_assert!(lo <= n && n <= hi, "{n} steps outside {lo}..={hi}");
                 }
@@ -124,7 +125,7 @@ proptest! {
             // Reported deviations are those of the delivered volumes.
             for g in &r.goals {
                 let (stock, conc) = if g.label == "I-" { (0, c.c_stock[0]) } else { (1, c.c_stock[1]) };
-                let achieved = conc * r.volume_of(stock) / spec.total_volume;
+                let achieved = conc * r.volume_of(stock) / lab.total_volume;
                 approx::assert_relative_eq!(g.achieved, achieved, max_relative = 1e-12);
                 approx::assert_relative_eq!(g.deviation, (achieved - g.target) / g.target, epsilon = 1e-12);
             }

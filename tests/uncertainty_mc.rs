@@ -41,29 +41,31 @@ fn first_order_agrees_with_monte_carlo() {
         std::fs::read_to_string(path).unwrap(),
     ))
     .unwrap();
-    let solution = clockprep::solve::solve(&spec).unwrap();
+    let lab = spec.lab.as_ref().unwrap();
+    let solution = clockprep::solve::solve(&spec, lab).unwrap();
     let run = &solution.runs[0];
-    let first = propagate(&spec, run);
-    let reaction = spec.reaction.as_ref().unwrap();
-    let temperature = spec.forecast.as_ref().unwrap().temperature;
+    let first = propagate(&spec, lab, run);
+    let prior = spec.prior.as_ref().unwrap();
+    let reaction = &prior.reaction;
+    let temperature = prior.settings.temperature;
     let mut rng = Rng(20261202);
     let n = 20_000;
     let species: Vec<String> = run.concentrations.iter().map(|(s, _)| s.clone()).collect();
     let mut ln_c: Vec<Vec<f64>> = vec![Vec::with_capacity(n); species.len()];
     let mut ln_t = Vec::with_capacity(n);
     for _ in 0..n {
-        let stock_factor: Vec<f64> = spec
+        let stock_factor: Vec<f64> = lab
             .stocks
             .iter()
-            .map(|_| 1.0 + spec.stock_uncertainty * rng.normal())
+            .map(|_| 1.0 + lab.stock_uncertainty * rng.normal())
             .collect();
         let mut total = 0.0;
         let mut amount = vec![0.0; species.len()];
         for a in &run.additions {
             let mut v = a.volume;
             for &(d, fills) in &a.delivery.parts {
-                let t = tolerance(&spec.devices[d]);
-                let draws = if spec.devices[d].is_volumetric() {
+                let t = tolerance(&lab.devices[d]);
+                let draws = if lab.devices[d].is_volumetric() {
                     fills
                 } else {
                     1
@@ -75,7 +77,7 @@ fn first_order_agrees_with_monte_carlo() {
             total += v;
             if let Some(s) = a.stock {
                 for (k, sp) in species.iter().enumerate() {
-                    amount[k] += spec.stocks[s].concentration_of(sp) * stock_factor[s] * v;
+                    amount[k] += lab.stocks[s].concentration_of(sp) * stock_factor[s] * v;
                 }
             }
         }

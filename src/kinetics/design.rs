@@ -7,7 +7,7 @@
 //! stocks and glassware) and the unrecorded temperature scatter through Ea/(R T²).
 
 use crate::kinetics::R;
-use crate::spec::{Run, Scheme, Spec, Target};
+use crate::spec::{Design, Prior, Run, Scheme, Spec, Target};
 use nalgebra::DMatrix;
 
 /// A designed run: name and targets (mol/L).
@@ -47,8 +47,7 @@ fn trim(v: f64) -> String {
 }
 
 /// The runs of the spec's `[design]` scheme.
-pub fn generate(spec: &Spec) -> Vec<DesignedRun> {
-    let d = spec.design.as_ref().expect("a [design] table");
+pub fn generate(d: &Design) -> Vec<DesignedRun> {
     let base = &d.base;
     let mut runs = vec![DesignedRun {
         name: "base".into(),
@@ -184,34 +183,22 @@ pub fn with_runs(spec: &Spec, runs: &[DesignedRun]) -> Spec {
     s
 }
 
-/// Design the run set and estimate how well it determines the rate law.
-pub fn design(spec: &Spec) -> DesignReport {
-    let d = spec.design.as_ref().expect("a [design] table");
-    let runs = generate(spec);
+/// How well the designed runs determine the rate law. `volumetric` is each run's relative
+/// volumetric error (propagated through the glassware by the caller when the spec lists it, else
+/// the spec's flat value) and `warnings` what the caller found on the way.
+pub fn assess(
+    spec: &Spec,
+    d: &Design,
+    runs: Vec<DesignedRun>,
+    volumetric: &[f64],
+    mut warnings: Vec<String>,
+) -> DesignReport {
     let designed = with_runs(spec, &runs);
-    let mut warnings = Vec::new();
-    // Per-run volumetric error: propagated through the glassware when the spec lists it.
-    let volumetric: Vec<f64> = if spec.stocks.is_empty() {
-        vec![d.volumetric_error; runs.len()]
-    } else {
-        match crate::solve::solve(&designed) {
-            Ok(sol) => sol
-                .runs
-                .iter()
-                .map(|r| {
-                    crate::lab::uncertainty::propagate(&designed, r)
-                        .time
-                        .unwrap_or(d.volumetric_error)
-                })
-                .collect(),
-            Err(e) => {
-                warnings.push(format!("the designed runs cannot all be made with these stocks and glassware ({}); assumed {} % volumetric error", e.message(), d.volumetric_error * 100.0));
-                vec![d.volumetric_error; runs.len()]
-            }
-        }
-    };
-    let (species, temp_term): (Vec<String>, f64) = match (&spec.reaction, &spec.forecast) {
-        (Some(r), Some(f)) => {
+    let (species, temp_term): (Vec<String>, f64) = match &spec.prior {
+        Some(Prior {
+            reaction: r,
+            settings: f,
+        }) => {
             let sp = r.rate_law_species().iter().map(|s| s.to_string()).collect();
             // d ln k / dT = Ea / (R T²), summed over the terms' largest Ea.
             let ea = r
@@ -279,10 +266,13 @@ pub fn design(spec: &Spec) -> DesignReport {
     }
     // Each designed run is forecast across the temperature band, and its flags (outside the
     // window at either end, high conversion, no clock) become the design's warnings.
-    let times = match crate::kinetics::forecast::forecast(
-        &designed,
-        &runs.iter().map(|r| r.targets.clone()).collect::<Vec<_>>(),
-    ) {
+    let times = match designed.prior.as_ref().map(|p| {
+        crate::kinetics::forecast::forecast(
+            &designed,
+            p,
+            &runs.iter().map(|r| r.targets.clone()).collect::<Vec<_>>(),
+        )
+    }) {
         Some(f) => {
             for (r, rf) in runs.iter().zip(&f.runs) {
                 for w in &rf.warnings {
@@ -307,9 +297,8 @@ pub fn design(spec: &Spec) -> DesignReport {
 }
 
 /// The designed runs as `[[run]]` TOML, with the expected precision as comments.
-pub fn toml_runs(spec: &Spec, report: &DesignReport) -> String {
+pub fn toml_runs(spec: &Spec, d: &Design, report: &DesignReport) -> String {
     use std::fmt::Write;
-    let d = spec.design.as_ref().expect("a [design] table");
     let q = |s: &str| toml::Value::String(s.to_string()).to_string();
     let mut out = String::new();
     let scheme = match d.scheme {

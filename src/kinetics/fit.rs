@@ -13,7 +13,7 @@
 
 use crate::error::{Error, Result, SpecSource};
 use crate::kinetics::{Reaction, RunKinetics, Term, R};
-use crate::spec::Spec;
+use crate::spec::{Prior, Spec};
 use crate::units::{self, Kind};
 use nalgebra::{DMatrix, DVector};
 use statrs::distribution::{ContinuousCDF, StudentsT};
@@ -465,21 +465,12 @@ fn unit_reaction(reaction: &Reaction, orders: &[(String, f64)]) -> Reaction {
 /// concentrations (the same ones the forecast uses).
 pub fn fit(
     spec: &Spec,
+    prior: &Prior,
     initial: &[Vec<(String, f64)>],
     trials: &[Trial],
     options: &Options,
 ) -> Result<Fit> {
-    let reaction = spec.reaction.as_ref().ok_or_else(|| {
-        refuse(
-            spec,
-            "a fit needs the prior rate law in [reaction]",
-            "add [reaction] with a preset or a rate law",
-        )
-    })?;
-    let settings = spec
-        .forecast
-        .as_ref()
-        .expect("a reaction comes with forecast settings");
+    let (reaction, settings) = (&prior.reaction, &prior.settings);
     let [term] = reaction.terms.as_slice() else {
         return Err(refuse(
             spec,
@@ -898,9 +889,9 @@ fn refuse(spec: &Spec, message: &str, help: &str) -> Error {
 }
 
 /// The updated prior as a TOML fragment to paste over `[reaction]`, with the fit as comments.
-pub fn toml_fragment(spec: &Spec, fit: &Fit, times_name: &str) -> String {
+pub fn toml_fragment(spec: &Spec, prior: &Prior, fit: &Fit, times_name: &str) -> String {
     use std::fmt::Write;
-    let reaction = spec.reaction.as_ref().expect("fitted against a reaction");
+    let reaction = &prior.reaction;
     let q = |s: &str| toml::Value::String(s.to_string()).to_string();
     let overall: f64 = fit
         .orders

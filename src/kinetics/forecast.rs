@@ -5,7 +5,7 @@
 
 use crate::flag::Flag;
 use crate::kinetics::{NoClock, RunKinetics, Timing, QUADRATURE_ACCEPTED};
-use crate::spec::Spec;
+use crate::spec::{Prior, Spec};
 
 /// Largest fraction of a reactant that may be used up by the clock before the initial-rate
 /// method is in doubt (common practice: about 10 %).
@@ -69,10 +69,9 @@ fn celsius(t: f64) -> String {
 }
 
 /// Forecast every run from its initial concentrations (species → mol/L, one list per run).
-/// Returns None when the spec has no rate law.
-pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast> {
-    let reaction = spec.reaction.as_ref()?;
-    let settings = spec.forecast.as_ref()?;
+pub fn forecast(spec: &Spec, prior: &Prior, initial: &[Vec<(String, f64)>]) -> Forecast {
+    let reaction = &prior.reaction;
+    let settings = &prior.settings;
     let t = settings.temperature;
     let (cool, warm) = (t - settings.band, t + settings.band);
     let (short, long) = settings.window;
@@ -178,7 +177,7 @@ pub fn forecast(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Option<Forecast>
             });
         }
     }
-    Some(Forecast { runs, warnings })
+    Forecast { runs, warnings }
 }
 
 #[cfg(test)]
@@ -228,7 +227,7 @@ orders = {{ "BrO3-" = 1, "I-" = 1 }}
             .iter()
             .map(|r| r.target_concentrations())
             .collect();
-        forecast(spec, &initial).unwrap()
+        forecast(spec, spec.prior.as_ref().unwrap(), &initial)
     }
 
     fn codes(f: &RunForecast) -> Vec<&'static str> {
@@ -319,7 +318,7 @@ name = "r"
 targets = { "H2O2" = "10 mM", "I-" = "10 mM", "H+" = "0.1 M" }
 "#;
         let s = load_for(SpecSource::new("p.toml", text), Purpose::Forecast).unwrap();
-        let r = s.reaction.as_ref().unwrap();
+        let r = &s.prior.as_ref().unwrap().reaction;
         approx::assert_relative_eq!(r.terms[0].k_ref, 0.0115, max_relative = 1e-12);
         approx::assert_relative_eq!(r.terms[0].t_ref, 298.15);
         assert!(r.terms[0].source.as_deref().unwrap().contains("Liebhafsky"));
@@ -329,7 +328,7 @@ targets = { "H2O2" = "10 mM", "I-" = "10 mM", "H+" = "0.1 M" }
                 .replace("peroxide-iodide", preset)
                 .replace("{ \"H2O2\" = \"10 mM\", \"I-\" = \"10 mM\", \"H+\" = \"0.1 M\" }", "{ \"S2O8^2-\" = \"10 mM\", \"BrO3-\" = \"10 mM\", \"I-\" = \"10 mM\", \"H+\" = \"0.1 M\" }");
             let s = load_for(SpecSource::new("p.toml", t), Purpose::Forecast).unwrap();
-            approx::assert_relative_eq!(s.reaction.unwrap().nu, nu);
+            approx::assert_relative_eq!(s.prior.unwrap().reaction.nu, nu);
         }
     }
 }

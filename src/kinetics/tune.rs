@@ -5,7 +5,7 @@
 
 use crate::kinetics::forecast::MAX_CONVERSION;
 use crate::kinetics::RunKinetics;
-use crate::spec::Spec;
+use crate::spec::{Prior, Spec};
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct RunTimes {
@@ -33,9 +33,14 @@ pub struct Tuning {
 #[derive(Debug, Clone, PartialEq)]
 pub struct NoTuning(pub String);
 
-fn times(spec: &Spec, initial: &[Vec<(String, f64)>], c: f64) -> Option<Vec<RunTimes>> {
-    let reaction = spec.reaction.as_ref()?;
-    let f = spec.forecast.as_ref()?;
+fn times(
+    spec: &Spec,
+    prior: &Prior,
+    initial: &[Vec<(String, f64)>],
+    c: f64,
+) -> Option<Vec<RunTimes>> {
+    let reaction = &prior.reaction;
+    let f = &prior.settings;
     spec.runs
         .iter()
         .zip(initial)
@@ -56,19 +61,16 @@ fn times(spec: &Spec, initial: &[Vec<(String, f64)>], c: f64) -> Option<Vec<RunT
 }
 
 /// The smallest log margin to the window (negative when some run falls outside).
-fn margin(spec: &Spec, runs: &[RunTimes]) -> f64 {
-    let (short, long) = spec.forecast.as_ref().expect("settings").window;
+fn margin(prior: &Prior, runs: &[RunTimes]) -> f64 {
+    let (short, long) = prior.settings.window;
     runs.iter()
         .map(|r| (r.fast / short).ln().min((long / r.slow).ln()))
         .fold(f64::INFINITY, f64::min)
 }
 
 /// The concentration at which the largest conversion of any reactant reaches the limit.
-fn conversion_limit(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<f64, NoTuning> {
-    let reaction = spec
-        .reaction
-        .as_ref()
-        .ok_or_else(|| NoTuning("tuning needs the prior rate law in [reaction]".into()))?;
+fn conversion_limit(prior: &Prior, initial: &[Vec<(String, f64)>]) -> Result<f64, NoTuning> {
+    let reaction = &prior.reaction;
     // Conversion is proportional to the timing concentration: scale from a tiny probe.
     let probe = 1e-9;
     let mut worst: f64 = 0.0;
@@ -86,9 +88,14 @@ fn conversion_limit(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<f64, 
 
 /// Find the best timing concentration.
 /// The timing concentration with the most margin, and that margin (ln; ≥ 0 fits).
-fn best_concentration(spec: &Spec, initial: &[Vec<(String, f64)>], limit: f64) -> (f64, f64) {
+fn best_concentration(
+    spec: &Spec,
+    prior: &Prior,
+    initial: &[Vec<(String, f64)>],
+    limit: f64,
+) -> (f64, f64) {
     let score = |ln_c: f64| {
-        times(spec, initial, ln_c.exp()).map_or(f64::NEG_INFINITY, |r| margin(spec, &r))
+        times(spec, prior, initial, ln_c.exp()).map_or(f64::NEG_INFINITY, |r| margin(prior, &r))
     };
     let (mut a, mut b) = (limit.ln() - 6.0 * std::f64::consts::LN_10, limit.ln());
     let g = (5f64.sqrt() - 1.0) / 2.0;
@@ -154,11 +161,12 @@ fn narrowed(
 /// re-running the tuning on the narrowed set (so the advice is tested before it is given).
 fn advise(
     spec: &Spec,
+    prior: &Prior,
     initial: &[Vec<(String, f64)>],
     runs: &[RunTimes],
     limit: f64,
 ) -> Vec<String> {
-    let (short, long) = spec.forecast.as_ref().expect("settings").window;
+    let (short, long) = prior.settings.window;
     let fastest = runs
         .iter()
         .min_by(|x, y| x.fast.total_cmp(&y.fast))
@@ -192,8 +200,8 @@ fn advise(
     }
     varied.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
     let fits = |set: &[Vec<(String, f64)>]| {
-        let limit = conversion_limit(spec, set).unwrap_or(limit);
-        best_concentration(spec, set, limit).1 >= 0.0
+        let limit = conversion_limit(prior, set).unwrap_or(limit);
+        best_concentration(spec, prior, set, limit).1 >= 0.0
     };
     let mut candidates: Vec<Vec<String>> = varied.iter().map(|(_, s)| vec![s.clone()]).collect();
     if varied.len() > 1 {
@@ -214,7 +222,12 @@ fn advise(
             }
         }
         let set = narrowed(initial, &group, lo);
-        let (c, _) = best_concentration(spec, &set, conversion_limit(spec, &set).unwrap_or(limit));
+        let (c, _) = best_concentration(
+            spec,
+            prior,
+            &set,
+            conversion_limit(prior, &set).unwrap_or(limit),
+        );
         let how = if group.len() == 1 {
             format!("narrow the spread of {} alone", group[0])
         } else {
@@ -249,15 +262,19 @@ fn advise(
     advice
 }
 
-pub fn tune(spec: &Spec, initial: &[Vec<(String, f64)>]) -> Result<Tuning, NoTuning> {
-    let limit = conversion_limit(spec, initial)?;
-    let (concentration, _) = best_concentration(spec, initial, limit);
-    let runs = times(spec, initial, concentration)
+pub fn tune(
+    spec: &Spec,
+    prior: &Prior,
+    initial: &[Vec<(String, f64)>],
+) -> Result<Tuning, NoTuning> {
+    let limit = conversion_limit(prior, initial)?;
+    let (concentration, _) = best_concentration(spec, prior, initial, limit);
+    let runs = times(spec, prior, initial, concentration)
         .ok_or_else(|| NoTuning("a run has no clock at the best concentration".into()))?;
-    let m = margin(spec, &runs);
+    let m = margin(prior, &runs);
     let mut advice = Vec::new();
     if m < 0.0 {
-        advice = advise(spec, initial, &runs, limit);
+        advice = advise(spec, prior, initial, &runs, limit);
     }
     Ok(Tuning {
         concentration,
@@ -323,7 +340,7 @@ targets = { "BrO3-" = "10 mM", "I-" = "4 mM", "H+" = "1 M" }
                 hi = mid
             }
         }
-        let tuned = tune(&spec, &initial).unwrap();
+        let tuned = tune(&spec, spec.prior.as_ref().unwrap(), &initial).unwrap();
         approx::assert_relative_eq!(tuned.concentration, lo, max_relative = 1e-5);
         assert!(tuned.margin > 0.0 && tuned.advice.is_empty());
         // The conversion limit: 10 % of 10 mM bromate at ξ = c/6 gives c ≤ 6 mM.

@@ -9,7 +9,7 @@
 use crate::error::Result;
 use crate::reference::glassware::{find_delivery, Delivery};
 use crate::solve::Solution;
-use crate::spec::{Spec, Vessel, WaterVessel};
+use crate::spec::{Lab, Spec, Vessel, WaterVessel};
 use std::collections::BTreeSet;
 
 /// Most stocks placed automatically (2^n assignments are tried).
@@ -45,13 +45,13 @@ pub struct Mixing {
 }
 
 /// Place stocks and water into the two vessels of every run.
-pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
+pub fn split(spec: &Spec, lab: &Lab, solution: &Solution) -> Result<Mixing> {
     let used = &solution.used_stocks;
-    let groups = &spec.mixing.keep_apart;
+    let groups = &lab.mixing.keep_apart;
 
     // A single stock that holds a whole group can never be kept apart.
     for &s in used {
-        let st = &spec.stocks[s];
+        let st = &lab.stocks[s];
         for g in groups {
             if g.iter().all(|sp| st.concentration_of(sp) > 0.0) {
                 return Err(spec.source.error(
@@ -68,12 +68,12 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
         }
     }
 
-    let fixed: Vec<Option<Vessel>> = used.iter().map(|&s| spec.stocks[s].vessel).collect();
+    let fixed: Vec<Option<Vessel>> = used.iter().map(|&s| lab.stocks[s].vessel).collect();
     if groups.is_empty() && fixed.iter().any(Option::is_none) {
         let s = used[fixed.iter().position(Option::is_none).unwrap_or(0)];
         return Err(spec.source.error(
-            spec.stocks[s].name_span.clone(),
-            format!("clockprep cannot tell which vessel stock '{}' belongs in", spec.stocks[s].name),
+            lab.stocks[s].name_span.clone(),
+            format!("clockprep cannot tell which vessel stock '{}' belongs in", lab.stocks[s].name),
             "no vessel",
             "name the species that must not meet before t = 0, e.g. [mixing] keep_apart = [[\"BrO3-\", \"I-\", \"H+\"]], or give every stock vessel = \"A\" or \"B\"",
         ));
@@ -81,7 +81,7 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
     let free: Vec<usize> = (0..used.len()).filter(|&i| fixed[i].is_none()).collect();
     if free.len() > MAX_AUTO {
         return Err(spec.source.error(
-            spec.stocks[used[free[MAX_AUTO]]].name_span.clone(),
+            lab.stocks[used[free[MAX_AUTO]]].name_span.clone(),
             format!("more than {MAX_AUTO} stocks without a vessel"),
             "too many to place",
             "give some stocks vessel = \"A\" or \"B\"",
@@ -92,7 +92,7 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
         used.iter()
             .zip(assign)
             .filter(|(_, &a)| a == v)
-            .flat_map(|(&s, _)| spec.stocks[s].contains.iter().map(|(sp, _)| sp.as_str()))
+            .flat_map(|(&s, _)| lab.stocks[s].contains.iter().map(|(sp, _)| sp.as_str()))
             .collect()
     };
     let violates = |assign: &[Vessel]| -> Option<(Vessel, &Vec<String>)> {
@@ -145,9 +145,9 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
             .iter()
             .zip(&fixed)
             .filter(|(_, f)| **f == Some(v))
-            .filter_map(|(&s, _)| spec.stocks[s].vessel_span.clone())
+            .filter_map(|(&s, _)| lab.stocks[s].vessel_span.clone())
             .next_back()
-            .or_else(|| spec.mixing.span.clone())
+            .or_else(|| lab.mixing.span.clone())
             .unwrap_or(0..0);
         return Err(spec.source.error(
             blame,
@@ -183,7 +183,7 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
         }
         let water = r.water();
         if water.volume > 0.0 {
-            match spec.water_vessel {
+            match lab.water_vessel {
                 WaterVessel::Only(Vessel::A) => {
                     a.items.push((None, water.volume, water.delivery.clone()))
                 }
@@ -192,7 +192,7 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
                 }
                 WaterVessel::Split => {
                     let (wa, wb) =
-                        split_water(spec, water.volume, &water.delivery, a.volume(), b.volume());
+                        split_water(lab, water.volume, &water.delivery, a.volume(), b.volume());
                     if let Some(w) = wa {
                         a.items.push((None, w.0, w.1));
                     }
@@ -206,7 +206,7 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
     }
     Ok(Mixing {
         vessel_of,
-        poured: spec.mixing.poured,
+        poured: lab.mixing.poured,
         runs,
     })
 }
@@ -214,10 +214,10 @@ pub fn split(spec: &Spec, solution: &Solution) -> Result<Mixing> {
 type Part = Option<(f64, Delivery)>;
 
 /// Split `water` (L) into two deliverable parts that bring the vessels closest in volume.
-fn split_water(spec: &Spec, water: f64, whole: &Delivery, a: f64, b: f64) -> (Part, Part) {
-    let devices = &spec.devices;
+fn split_water(lab: &Lab, water: f64, whole: &Delivery, a: f64, b: f64) -> (Part, Part) {
+    let devices = &lab.devices;
     let mut candidates: Vec<f64> = vec![0.0, water];
-    for &d in &spec.water_devices {
+    for &d in &lab.water_devices {
         candidates.extend(devices[d].volumes().filter(|&x| x < water));
     }
     let mut best: Option<(f64, f64, Delivery, Delivery)> = None;
@@ -231,12 +231,12 @@ fn split_water(spec: &Spec, water: f64, whole: &Delivery, a: f64, b: f64) -> (Pa
         let da = if x == water {
             Some(whole.clone())
         } else {
-            find_delivery(x, &spec.water_devices, devices)
+            find_delivery(x, &lab.water_devices, devices)
         };
         let db = if x == 0.0 {
             Some(whole.clone())
         } else {
-            find_delivery(rest, &spec.water_devices, devices)
+            find_delivery(rest, &lab.water_devices, devices)
         };
         if let (Some(da), Some(db)) = (da, db) {
             best = Some((diff, x, da, db));
@@ -295,13 +295,14 @@ targets = { "I-" = "4.00 mM", "BrO3-" = "8.00 mM", "H+" = "20.0 mM" }
     #[test]
     fn keeps_groups_apart_and_balances_water() {
         let spec = crate::spec::load(SpecSource::new("t.toml", SPEC)).unwrap();
-        let sol = crate::solve::solve(&spec).unwrap();
-        let m = split(&spec, &sol).unwrap();
+        let lab = spec.lab.as_ref().unwrap();
+        let sol = crate::solve::solve(&spec, lab).unwrap();
+        let m = split(&spec, lab, &sol).unwrap();
         // Acid and thiosulfate never share a vessel; bromate, iodide and acid never all in one.
         let idx = |name: &str| {
             sol.used_stocks
                 .iter()
-                .position(|&s| spec.stocks[s].name == name)
+                .position(|&s| lab.stocks[s].name == name)
                 .unwrap()
         };
         assert_ne!(m.vessel_of[idx("HCl")], m.vessel_of[idx("thio")]);

@@ -4,7 +4,7 @@
 //! only diluted (bench concentrates) are added with the volume the dilutions draw from them.
 
 use crate::lab::totals::{flask_for, Totals};
-use crate::spec::{Recipe, Spec};
+use crate::spec::{Lab, Recipe};
 
 #[derive(Debug, Clone, PartialEq)]
 pub enum Action {
@@ -46,18 +46,18 @@ pub fn liquid_volume_ml(concentration: f64, volume: f64, molar_mass: f64, w: f64
     concentration * volume * molar_mass / (w * rho)
 }
 
-pub fn prepare(spec: &Spec, totals: &Totals) -> Vec<Preparation> {
-    let mut need: Vec<f64> = vec![0.0; spec.stocks.len()];
+pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
+    let mut need: Vec<f64> = vec![0.0; lab.stocks.len()];
     let mut listed: Vec<usize> = Vec::new();
     for t in &totals.stocks {
         need[t.stock] = t.need;
         listed.push(t.stock);
     }
     // Draws of dilutions from their sources (one level: a source is never itself a dilution).
-    let mut drawn = vec![0.0; spec.stocks.len()];
+    let mut drawn = vec![0.0; lab.stocks.len()];
     for &s in &listed {
-        if let Recipe::Dilute { from, factor } = spec.stocks[s].recipe {
-            let (flask, count) = flask_for(need[s], &spec.flasks);
+        if let Recipe::Dilute { from, factor } = lab.stocks[s].recipe {
+            let (flask, count) = flask_for(need[s], &lab.flasks);
             drawn[from] += flask * count as f64 * factor;
         }
     }
@@ -71,8 +71,8 @@ pub fn prepare(spec: &Spec, totals: &Totals) -> Vec<Preparation> {
         .into_iter()
         .map(|s| {
             let total = need[s] + drawn[s];
-            let (flask, flask_count) = flask_for(total, &spec.flasks);
-            let action = match &spec.stocks[s].recipe {
+            let (flask, flask_count) = flask_for(total, &lab.flasks);
+            let action = match &lab.stocks[s].recipe {
                 Recipe::Weigh {
                     concentration,
                     molar_mass,

@@ -2,7 +2,7 @@
 //! plus the overage, rounded up to a volumetric flask size.
 
 use crate::solve::Solution;
-use crate::spec::Spec;
+use crate::spec::{Lab, Spec};
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct StockTotal {
@@ -34,7 +34,7 @@ pub fn flask_for(need: f64, flasks: &[f64]) -> (f64, u32) {
     (largest, (need / largest - 1e-12).ceil() as u32)
 }
 
-pub fn compute(spec: &Spec, solution: &Solution) -> Totals {
+pub fn compute(spec: &Spec, lab: &Lab, solution: &Solution) -> Totals {
     let sets = (spec.replicates * spec.stations) as f64;
     let stocks = solution
         .used_stocks
@@ -42,8 +42,8 @@ pub fn compute(spec: &Spec, solution: &Solution) -> Totals {
         .map(|&s| {
             let per_station_set: f64 = solution.runs.iter().map(|r| r.volume_of(s)).sum();
             let used = per_station_set * sets;
-            let need = used * (1.0 + spec.overage);
-            let (flask, flask_count) = flask_for(need, &spec.flasks);
+            let need = used * (1.0 + lab.overage);
+            let (flask, flask_count) = flask_for(need, &lab.flasks);
             StockTotal {
                 stock: s,
                 per_station_set,

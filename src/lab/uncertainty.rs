@@ -10,7 +10,7 @@
 use crate::kinetics::RunKinetics;
 use crate::reference::glassware::{Class, Delivery, Device, DeviceKind};
 use crate::solve::RunSolution;
-use crate::spec::Spec;
+use crate::spec::{Lab, Spec};
 use crate::units::{self, Kind};
 use serde::Deserialize;
 use std::sync::OnceLock;
@@ -139,25 +139,25 @@ pub struct RunUncertainty {
 }
 
 /// First-order propagation for one solved run.
-pub fn propagate(spec: &Spec, run: &RunSolution) -> RunUncertainty {
+pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
     let adds = &run.additions;
     let v_total: f64 = adds.iter().map(|a| a.volume).sum();
     let u_add: Vec<f64> = adds
         .iter()
-        .map(|a| delivery_u(&a.delivery, &spec.devices))
+        .map(|a| delivery_u(&a.delivery, &lab.devices))
         .collect();
-    let u_stock = spec.stock_uncertainty;
+    let u_stock = lab.stock_uncertainty;
     // ∂ln cᵢ/∂V_a and the share of species i that each addition brings.
     let partials = |sp: &str| -> (Vec<f64>, Vec<f64>) {
         let amount: Vec<f64> = adds
             .iter()
-            .map(|a| a.stock.map_or(0.0, |s| spec.stocks[s].concentration_of(sp)) * a.volume)
+            .map(|a| a.stock.map_or(0.0, |s| lab.stocks[s].concentration_of(sp)) * a.volume)
             .collect();
         let n: f64 = amount.iter().sum();
         let d_v = adds
             .iter()
             .map(|a| {
-                let c = a.stock.map_or(0.0, |s| spec.stocks[s].concentration_of(sp));
+                let c = a.stock.map_or(0.0, |s| lab.stocks[s].concentration_of(sp));
                 (if n > 0.0 { c / n } else { 0.0 }) - 1.0 / v_total
             })
             .collect();
@@ -184,9 +184,9 @@ pub fn propagate(spec: &Spec, run: &RunSolution) -> RunUncertainty {
         .collect();
 
     let time = spec
-        .reaction
+        .prior
         .as_ref()
-        .zip(spec.forecast.as_ref())
+        .map(|p| (&p.reaction, &p.settings))
         .and_then(|(reaction, f)| {
             let c0 = &run.concentrations;
             let timing = spec.timing.concentration;

@@ -8,8 +8,7 @@ use crate::lab::totals::Totals;
 use crate::lab::uncertainty::RunUncertainty;
 use crate::reference::reagents;
 use crate::solve::Solution;
-use crate::spec::Reaction;
-use crate::spec::Spec;
+use crate::spec::{ForecastSettings, Lab, Prior, Reaction, Spec};
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
@@ -378,19 +377,19 @@ fn reaction_report(r: &Reaction) -> ReactionReport {
     }
 }
 
-fn settings_report(spec: &Spec) -> Option<ForecastSettingsReport> {
-    spec.forecast.as_ref().map(|f| ForecastSettingsReport {
+fn settings_report(f: &ForecastSettings) -> ForecastSettingsReport {
+    ForecastSettingsReport {
         temperature_c: sig10(f.temperature - 273.15),
         band_c: sig10(f.band),
         window_s: [sig10(f.window.0), sig10(f.window.1)],
         lab_period_s: f.lab_period.map(sig10),
         handling_per_run_s: sig10(f.handling),
-    })
+    }
 }
 
 /// The report of `clockprep forecast`.
-pub fn build_forecast(spec: &Spec, forecast: &Forecast) -> ForecastSheet {
-    let reaction = spec.reaction.as_ref().expect("a forecast has a reaction");
+pub fn build_forecast(spec: &Spec, prior: &Prior, forecast: &Forecast) -> ForecastSheet {
+    let reaction = &prior.reaction;
     // No stocks here: each species stands for the reagent that brings it.
     let mut species: Vec<&str> = vec![spec.timing.species.as_str()];
     for t in spec.runs.iter().flat_map(|r| &r.targets) {
@@ -407,7 +406,7 @@ pub fn build_forecast(spec: &Spec, forecast: &Forecast) -> ForecastSheet {
             concentration: sig10(spec.timing.concentration),
         },
         reaction: reaction_report(reaction),
-        forecast_settings: settings_report(spec).expect("a forecast has settings"),
+        forecast_settings: settings_report(&prior.settings),
         runs: spec
             .runs
             .iter()
@@ -431,6 +430,7 @@ pub fn build_forecast(spec: &Spec, forecast: &Forecast) -> ForecastSheet {
 
 pub fn build(
     spec: &Spec,
+    lab: &Lab,
     solution: &Solution,
     mixing: &Mixing,
     totals: &Totals,
@@ -438,7 +438,7 @@ pub fn build(
     uncertainty: &[RunUncertainty],
 ) -> PlanReport {
     let name =
-        |s: Option<usize>| s.map_or_else(|| "water".to_string(), |s| spec.stocks[s].name.clone());
+        |s: Option<usize>| s.map_or_else(|| "water".to_string(), |s| lab.stocks[s].name.clone());
     let pour = format!("{} into {}", mixing.poured, mixing.poured.other());
     let vessel_of = |s: usize| {
         solution
@@ -454,7 +454,7 @@ pub fn build(
             .map(|(s, v, d)| PortionItem {
                 stock: name(*s),
                 ml: ml(*v),
-                device: d.describe(&spec.devices),
+                device: d.describe(&lab.devices),
             })
             .collect()
     };
@@ -473,7 +473,7 @@ pub fn build(
                     Volume {
                         stock: name(Some(s)),
                         ml: ml(add.map_or(0.0, |a| a.volume)),
-                        device: add.map_or("-".into(), |a| a.delivery.describe(&spec.devices)),
+                        device: add.map_or("-".into(), |a| a.delivery.describe(&lab.devices)),
                         vessel: vessel_of(s).map_or("-".into(), |v| v.to_string()),
                     }
                 })
@@ -485,7 +485,7 @@ pub fn build(
                     volumes.push(Volume {
                         stock: "water".into(),
                         ml: ml(*v),
-                        device: d.describe(&spec.devices),
+                        device: d.describe(&lab.devices),
                         vessel: label.into(),
                     });
                 }
@@ -548,11 +548,11 @@ pub fn build(
     let timing_add = solution.runs[0]
         .additions
         .iter()
-        .find(|a| a.stock == Some(spec.timing_stock()))
+        .find(|a| a.stock == Some(lab.timing_stock))
         .expect("the timing stock is in every run");
 
     let stocks_used = solution.used_stocks.iter().map(|&s| {
-        let st = &spec.stocks[s];
+        let st = &lab.stocks[s];
         (
             st.solute.as_deref(),
             st.contains
@@ -566,22 +566,22 @@ pub fn build(
         format: FORMAT,
         title: spec.title.clone(),
         spec: spec.source.name.clone(),
-        total_volume_ml: ml(spec.total_volume),
+        total_volume_ml: ml(lab.total_volume),
         stations: spec.stations,
         replicates: spec.replicates,
-        overage_pct: sig10(spec.overage * 100.0),
-        tolerance_pct: sig10(spec.tolerance * 100.0),
+        overage_pct: sig10(lab.overage * 100.0),
+        tolerance_pct: sig10(lab.tolerance * 100.0),
         temperature_c: spec.temperature.map(|t| sig10(t - 273.15)),
         timing: TimingReport {
             species: spec.timing.species.clone(),
             concentration: sig10(spec.timing.concentration),
-            stock: name(Some(spec.timing_stock())),
+            stock: name(Some(lab.timing_stock)),
             ml: ml(timing_add.volume),
-            device: timing_add.delivery.describe(&spec.devices),
+            device: timing_add.delivery.describe(&lab.devices),
         },
         ionic_strength: solution
             .ionic_target
-            .zip(spec.ionic.as_ref())
+            .zip(lab.ionic.as_ref())
             .map(|(held, i)| IonicReport {
                 held: sig10(held),
                 using: name(Some(i.stock)),
@@ -594,7 +594,7 @@ pub fn build(
                 name: name(Some(s)),
                 vessel: v.to_string(),
                 contains: Ordered(
-                    spec.stocks[s]
+                    lab.stocks[s]
                         .contains
                         .iter()
                         .map(|(sp, c)| (sp.clone(), sig10(*c)))
@@ -604,8 +604,8 @@ pub fn build(
             .collect(),
         flagged: runs.iter().any(|r: &RunReport| !r.flags.is_empty())
             || forecast.is_some_and(|f| f.flagged()),
-        reaction: spec.reaction.as_ref().map(reaction_report),
-        forecast_settings: settings_report(spec),
+        reaction: spec.prior.as_ref().map(|p| reaction_report(&p.reaction)),
+        forecast_settings: spec.prior.as_ref().map(|p| settings_report(&p.settings)),
         warnings: forecast.map(|f| f.warnings.clone()).unwrap_or_default(),
         runs,
         stock_totals: totals
@@ -694,13 +694,17 @@ pub struct RecipeReport {
     pub text: String,
 }
 
-pub fn build_stocks(spec: &Spec, preps: &[crate::lab::recipes::Preparation]) -> StockSheet {
+pub fn build_stocks(
+    spec: &Spec,
+    lab: &Lab,
+    preps: &[crate::lab::recipes::Preparation],
+) -> StockSheet {
     use crate::lab::recipes::Action;
     use crate::spec::Recipe;
     let stocks = preps
         .iter()
         .map(|p| {
-            let st = &spec.stocks[p.stock];
+            let st = &lab.stocks[p.stock];
             let flask = format!("{} mL volumetric flask", sig10(p.flask * 1e3));
             let (molar_mass, solute_concentration, purity, w, rho) = match &st.recipe {
                 Recipe::Weigh { concentration, molar_mass, purity, .. } => (Some(*molar_mass), Some(*concentration), Some(*purity), None, None),
@@ -737,8 +741,8 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::lab::recipes::Preparation]) -> 
                     "dilute",
                     None,
                     Some(*ml),
-                    Some(spec.stocks[*from].name.clone()),
-                    format!("Deliver {ml:.2} mL of '{}' into a {flask} and make up to the mark with water.", spec.stocks[*from].name),
+                    Some(lab.stocks[*from].name.clone()),
+                    format!("Deliver {ml:.2} mL of '{}' into a {flask} and make up to the mark with water.", lab.stocks[*from].name),
                 ),
                 Action::AsUsual => ("as usual", None, None, None, format!("Make up in a {flask} as your method describes (no formula to compute from).")),
             };
@@ -772,7 +776,7 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::lab::recipes::Preparation]) -> 
         })
         .collect();
     let used = preps.iter().map(|p| {
-        let st = &spec.stocks[p.stock];
+        let st = &lab.stocks[p.stock];
         (
             st.solute.as_deref(),
             st.contains
@@ -787,7 +791,7 @@ pub fn build_stocks(spec: &Spec, preps: &[crate::lab::recipes::Preparation]) -> 
         spec: spec.source.name.clone(),
         stations: spec.stations,
         replicates: spec.replicates,
-        overage_pct: sig10(spec.overage * 100.0),
+        overage_pct: sig10(lab.overage * 100.0),
         stocks,
         cautions: reagents::cautions(used),
     }

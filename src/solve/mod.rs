@@ -17,7 +17,7 @@
 
 use crate::error::{Error, Result};
 use crate::reference::glassware::{find_delivery, find_delivery_in_two, Delivery, Device};
-use crate::spec::{IonicTarget, Run, Spec, WaterVessel};
+use crate::spec::{IonicTarget, Lab, Run, Spec, WaterVessel};
 use crate::units;
 use good_lp::{
     microlp, variable, Expression, ProblemVariables, ResolutionError, Solution as _, SolverModel,
@@ -122,12 +122,12 @@ struct Constant {
 }
 
 /// Solve every run of the plan.
-pub fn solve(spec: &Spec) -> Result<Solution> {
+pub fn solve(spec: &Spec, lab: &Lab) -> Result<Solution> {
     check_distinct_runs(spec)?;
-    let constant = constant_additions(spec)?;
-    check_reachable_low(spec)?;
-    check_hold_reachable(spec, &constant)?;
-    let ionic_target = match spec.ionic.as_ref().map(|i| i.target) {
+    let constant = constant_additions(spec, lab)?;
+    check_reachable_low(spec, lab)?;
+    check_hold_reachable(spec, lab, &constant)?;
+    let ionic_target = match lab.ionic.as_ref().map(|i| i.target) {
         None => None,
         Some(IonicTarget::Value(v)) => Some(v),
         Some(IonicTarget::Max) => {
@@ -136,7 +136,7 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
             let mut seen = std::collections::HashSet::new();
             for run in &spec.runs {
                 if seen.insert(targets_key(run)) {
-                    let s = solve_run(spec, run, &constant, None)?;
+                    let s = solve_run(spec, lab, run, &constant, None)?;
                     highest = highest.max(s.ionic_strength);
                 }
             }
@@ -155,11 +155,11 @@ pub fn solve(spec: &Spec) -> Result<Solution> {
             continue;
         }
         seen.insert(key, i);
-        runs.push(solve_run(spec, run, &constant, ionic_target)?);
+        runs.push(solve_run(spec, lab, run, &constant, ionic_target)?);
     }
 
     // Keep only stocks used somewhere; every run lists the same ones, in spec order.
-    let used_stocks: Vec<usize> = (0..spec.stocks.len())
+    let used_stocks: Vec<usize> = (0..lab.stocks.len())
         .filter(|&s| runs.iter().any(|r| r.volume_of(s) > 0.0))
         .collect();
     for r in &mut runs {
@@ -184,28 +184,28 @@ fn targets_key(run: &Run) -> Vec<(String, u64)> {
     key
 }
 
-fn constant_additions(spec: &Spec) -> Result<Constant> {
+fn constant_additions(spec: &Spec, lab: &Lab) -> Result<Constant> {
     let mut additions = Vec::new();
     let t = &spec.timing;
-    let timing_stock = spec.timing_stock();
-    let stock = &spec.stocks[timing_stock];
+    let timing_stock = lab.timing_stock;
+    let stock = &lab.stocks[timing_stock];
     let c_stock = stock.concentration_of(&t.species);
-    let v_timing = t.concentration * spec.total_volume / c_stock;
-    let fixed_sum: f64 = spec
+    let v_timing = t.concentration * lab.total_volume / c_stock;
+    let fixed_sum: f64 = lab
         .stocks
         .iter()
         .filter(|s| s.in_runs)
         .filter_map(|s| s.fixed_volume)
         .sum();
-    if v_timing + fixed_sum > spec.total_volume * (1.0 + 1e-12) {
+    if v_timing + fixed_sum > lab.total_volume * (1.0 + 1e-12) {
         let (span, what) = if fixed_sum > 0.0 {
             (
-                spec.total_span.clone(),
+                lab.total_span.clone(),
                 format!(
                     "the timing stock ({} mL) and fixed additions ({} mL) add up to more than the whole {} mL run",
                     trim_ml(v_timing),
                     trim_ml(fixed_sum),
-                    trim_ml(spec.total_volume)
+                    trim_ml(lab.total_volume)
                 ),
             )
         } else {
@@ -217,7 +217,7 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
                     units::concentration(t.concentration),
                     trim_ml(v_timing),
                     stock.name,
-                    trim_ml(spec.total_volume)
+                    trim_ml(lab.total_volume)
                 ),
             )
         };
@@ -230,8 +230,8 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
     }
     // A timing volume within TIMING_SNAP of a deliverable one is that one: the stated
     // concentration was rounded (e.g. pasted from a suggestion below).
-    let (below, above) = nearest_deliverable(v_timing, &stock.devices, &spec.devices);
-    let v_timing = match find_delivery(v_timing, &stock.devices, &spec.devices) {
+    let (below, above) = nearest_deliverable(v_timing, &stock.devices, &lab.devices);
+    let v_timing = match find_delivery(v_timing, &stock.devices, &lab.devices) {
         Some(_) => v_timing,
         None => [below, above]
             .into_iter()
@@ -239,13 +239,13 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
             .find(|v| ((v - v_timing) / v_timing).abs() <= TIMING_SNAP)
             .unwrap_or(v_timing),
     };
-    let delivery = find_delivery(v_timing, &stock.devices, &spec.devices).ok_or_else(|| {
+    let delivery = find_delivery(v_timing, &stock.devices, &lab.devices).ok_or_else(|| {
         let mut options = Vec::new();
         for v in [below, above].into_iter().flatten() {
             // Six figures, so that the value pasted back lands within TIMING_SNAP.
             options.push(format!(
                 "concentration = \"{}\" ({} mL)",
-                units::concentration_figures(v * c_stock / spec.total_volume, 6),
+                units::concentration_figures(v * c_stock / lab.total_volume, 6),
                 trim_ml(v)
             ));
         }
@@ -292,11 +292,11 @@ fn constant_additions(spec: &Spec) -> Result<Constant> {
         volume: v_timing,
         delivery,
     });
-    for (i, s) in spec.stocks.iter().enumerate() {
+    for (i, s) in lab.stocks.iter().enumerate() {
         let Some(v) = s.fixed_volume.filter(|_| s.in_runs) else {
             continue;
         };
-        let delivery = find_delivery(v, &s.devices, &spec.devices).ok_or_else(|| {
+        let delivery = find_delivery(v, &s.devices, &lab.devices).ok_or_else(|| {
             spec.source.error(
                 s.name_span.clone(),
                 format!(
@@ -345,8 +345,8 @@ fn check_distinct_runs(spec: &Spec) -> Result<()> {
 
 /// A held ionic strength below what the additions made to every run (timing stock, fixed
 /// volumes) already give cannot be reached by adding salt: refuse it before any solve.
-fn check_hold_reachable(spec: &Spec, constant: &Constant) -> Result<()> {
-    let Some(hold) = &spec.ionic else {
+fn check_hold_reachable(spec: &Spec, lab: &Lab, constant: &Constant) -> Result<()> {
+    let Some(hold) = &lab.ionic else {
         return Ok(());
     };
     let IonicTarget::Value(target) = hold.target else {
@@ -355,10 +355,10 @@ fn check_hold_reachable(spec: &Spec, constant: &Constant) -> Result<()> {
     let floor: f64 = constant
         .additions
         .iter()
-        .filter_map(|a| a.stock.map(|s| spec.stocks[s].ionic_strength() * a.volume))
+        .filter_map(|a| a.stock.map(|s| lab.stocks[s].ionic_strength() * a.volume))
         .sum::<f64>()
-        / spec.total_volume;
-    if target < floor * (1.0 - spec.tolerance) {
+        / lab.total_volume;
+    if target < floor * (1.0 - lab.tolerance) {
         return Err(spec.source.error(
             hold.span.clone(),
             format!(
@@ -379,14 +379,14 @@ fn check_hold_reachable(spec: &Spec, constant: &Constant) -> Result<()> {
 /// Refuse, before any solver runs, a target so small that the least any allowed device can
 /// deliver of any stock holding the species overshoots it grossly (and leaving it out misses
 /// it grossly too): a pH 8 control of 1e-8 M H+ from a 0.1 M acid, say.
-fn check_reachable_low(spec: &Spec) -> Result<()> {
-    let gross = GROSS_DEVIATION.max(10.0 * spec.tolerance);
+fn check_reachable_low(spec: &Spec, lab: &Lab) -> Result<()> {
+    let gross = GROSS_DEVIATION.max(10.0 * lab.tolerance);
     if gross >= 1.0 {
         return Ok(()); // leaving the stock out is within the accepted miss
     }
     for run in &spec.runs {
         for t in &run.targets {
-            let least = spec
+            let least = lab
                 .stocks
                 .iter()
                 .filter(|s| s.in_runs && s.fixed_volume.is_none())
@@ -395,10 +395,10 @@ fn check_reachable_low(spec: &Spec) -> Result<()> {
                     let smallest = s
                         .devices
                         .iter()
-                        .filter_map(|&d| spec.devices[d].volumes().next())
+                        .filter_map(|&d| lab.devices[d].volumes().next())
                         .fold(f64::INFINITY, f64::min);
                     (c > 0.0 && smallest.is_finite())
-                        .then(|| (c * smallest / spec.total_volume, s, smallest))
+                        .then(|| (c * smallest / lab.total_volume, s, smallest))
                 })
                 .min_by(|a, b| a.0.total_cmp(&b.0));
             let Some((c_least, stock, smallest)) = least else {
@@ -406,8 +406,8 @@ fn check_reachable_low(spec: &Spec) -> Result<()> {
             };
             if c_least > t.concentration * (1.0 + gross) {
                 let needed =
-                    t.concentration * spec.total_volume / stock.concentration_of(&t.species);
-                let dilute = t.concentration * spec.total_volume / smallest;
+                    t.concentration * lab.total_volume / stock.concentration_of(&t.species);
+                let dilute = t.concentration * lab.total_volume / smallest;
                 return Err(spec.source.error(
                     t.span.clone(),
                     format!(
@@ -470,6 +470,7 @@ fn nearest_deliverable(
 /// The linear data of one run: which stocks vary and what each goal needs.
 struct RunModel<'a> {
     spec: &'a Spec,
+    lab: &'a Lab,
     run: &'a Run,
     /// Stocks whose volume the solve chooses.
     vary: Vec<usize>,
@@ -493,13 +494,19 @@ struct GoalRow {
 }
 
 impl<'a> RunModel<'a> {
-    fn new(spec: &'a Spec, run: &'a Run, constant: &Constant, ionic: Option<f64>) -> Self {
+    fn new(
+        spec: &'a Spec,
+        lab: &'a Lab,
+        run: &'a Run,
+        constant: &Constant,
+        ionic: Option<f64>,
+    ) -> Self {
         let fixed: Vec<usize> = constant.additions.iter().filter_map(|a| a.stock).collect();
-        let vary: Vec<usize> = (0..spec.stocks.len())
-            .filter(|&s| spec.stocks[s].in_runs && !fixed.contains(&s))
+        let vary: Vec<usize> = (0..lab.stocks.len())
+            .filter(|&s| lab.stocks[s].in_runs && !fixed.contains(&s))
             .filter(|&s| {
-                let st = &spec.stocks[s];
-                let is_salt = ionic.is_some() && spec.ionic.as_ref().is_some_and(|i| i.stock == s);
+                let st = &lab.stocks[s];
+                let is_salt = ionic.is_some() && lab.ionic.as_ref().is_some_and(|i| i.stock == s);
                 is_salt
                     || run
                         .targets
@@ -522,10 +529,10 @@ impl<'a> RunModel<'a> {
                 target: t.concentration,
                 coeffs: vary
                     .iter()
-                    .map(|&s| spec.stocks[s].concentration_of(&t.species))
+                    .map(|&s| lab.stocks[s].concentration_of(&t.species))
                     .collect(),
                 constant: constant_of(&|s| {
-                    spec.stocks
+                    lab.stocks
                         .get(s)
                         .map_or(0.0, |st| st.concentration_of(&t.species))
                 }),
@@ -533,40 +540,39 @@ impl<'a> RunModel<'a> {
                 ionic: false,
             })
             .collect();
-        if let (Some(target), Some(hold)) = (ionic, &spec.ionic) {
+        if let (Some(target), Some(hold)) = (ionic, &lab.ionic) {
             goals.push(GoalRow {
                 label: "ionic strength".into(),
                 target,
                 coeffs: vary
                     .iter()
-                    .map(|&s| spec.stocks[s].ionic_strength())
+                    .map(|&s| lab.stocks[s].ionic_strength())
                     .collect(),
-                constant: constant_of(&|s| {
-                    spec.stocks.get(s).map_or(0.0, |st| st.ionic_strength())
-                }),
+                constant: constant_of(&|s| lab.stocks.get(s).map_or(0.0, |st| st.ionic_strength())),
                 span: hold.span.clone(),
                 ionic: true,
             });
         }
         RunModel {
             spec,
+            lab,
             run,
             vary,
-            free_ml: (spec.total_volume - constant.volume) * 1e3,
+            free_ml: (lab.total_volume - constant.volume) * 1e3,
             goals,
             time_limit: constant.time_limit,
         }
     }
 
     fn total_ml(&self) -> f64 {
-        self.spec.total_volume * 1e3
+        self.lab.total_volume * 1e3
     }
 
     /// Largest volume (mL) the allowed devices of a stock deliver in one addition.
     fn cap_ml(&self, devices: &[usize]) -> f64 {
         devices
             .iter()
-            .map(|&d| self.spec.devices[d].max * 1e3)
+            .map(|&d| self.lab.devices[d].max * 1e3)
             .fold(0.0, f64::max)
             .min(self.free_ml)
     }
@@ -683,11 +689,11 @@ fn solve_model(
     relax: Relax,
     stage: Stage,
 ) -> std::result::Result<Outcome, ResolutionError> {
-    let spec = m.spec;
+    let lab = m.lab;
     let mut vars = ProblemVariables::new();
     let mut cons = Vec::new();
     // Split water is two additions, one per vessel; otherwise one.
-    let water_parts = if spec.water_vessel == WaterVessel::Split {
+    let water_parts = if lab.water_vessel == WaterVessel::Split {
         2
     } else {
         1
@@ -696,12 +702,10 @@ fn solve_model(
         Relax::Integer => (
             m.vary
                 .iter()
-                .map(|&s| {
-                    delivery_vars(&mut vars, &spec.stocks[s].devices, &spec.devices, &mut cons)
-                })
+                .map(|&s| delivery_vars(&mut vars, &lab.stocks[s].devices, &lab.devices, &mut cons))
                 .collect(),
             (0..water_parts)
-                .map(|_| delivery_vars(&mut vars, &spec.water_devices, &spec.devices, &mut cons))
+                .map(|_| delivery_vars(&mut vars, &lab.water_devices, &lab.devices, &mut cons))
                 .collect(),
         ),
         Relax::Continuous => {
@@ -716,9 +720,9 @@ fn solve_model(
             let stocks = m
                 .vary
                 .iter()
-                .map(|&s| free(&mut vars, m.cap_ml(&spec.stocks[s].devices)))
+                .map(|&s| free(&mut vars, m.cap_ml(&lab.stocks[s].devices)))
                 .collect();
-            let water_cap = (m.cap_ml(&spec.water_devices) * water_parts as f64).min(m.free_ml);
+            let water_cap = (m.cap_ml(&lab.water_devices) * water_parts as f64).min(m.free_ml);
             (stocks, vec![free(&mut vars, water_cap)])
         }
     };
@@ -807,7 +811,7 @@ fn solve_model(
             let delivery = read(dv);
             additions.push(Addition {
                 stock: Some(s),
-                volume: delivery.volume(&spec.devices),
+                volume: delivery.volume(&lab.devices),
                 delivery,
             });
         }
@@ -817,7 +821,7 @@ fn solve_model(
         }
         additions.push(Addition {
             stock: None,
-            volume: delivery.volume(&spec.devices),
+            volume: delivery.volume(&lab.devices),
             delivery,
         });
     }
@@ -869,11 +873,12 @@ fn keep_on_infeasible(
 
 fn solve_run(
     spec: &Spec,
+    lab: &Lab,
     run: &Run,
     constant: &Constant,
     ionic: Option<f64>,
 ) -> Result<RunSolution> {
-    let m = RunModel::new(spec, run, constant, ionic);
+    let m = RunModel::new(spec, lab, run, constant, ionic);
     let solver_error = |e: ResolutionError| {
         match e {
         ResolutionError::Other(why) if why == TIMED_OUT => spec.source.error(
@@ -902,7 +907,7 @@ fn solve_run(
         other => solver_error(other),
     })?;
     let best = relaxed.z_species.max(relaxed.z_ionic);
-    if best > spec.tolerance {
+    if best > lab.tolerance {
         return Err(explain_unreachable(&m, best));
     }
     let ideal = relaxed.volumes_ml;
@@ -919,17 +924,17 @@ fn solve_run(
     let water = find_water(&m, &additions)?;
     additions.push(water);
 
-    let solution = evaluate(spec, run, additions, ionic);
+    let solution = evaluate(lab, run, additions, ionic);
     let worst = solution
         .goals
         .iter()
         .map(|g| g.deviation.abs())
         .fold(0.0, f64::max);
     let mut solution = solution;
-    if worst > spec.tolerance {
+    if worst > lab.tolerance {
         let too_small = TooSmall::find(&m, &ideal);
         // Far off target, the nearest deliverable recipe is no recipe at all.
-        if worst > GROSS_DEVIATION.max(10.0 * spec.tolerance) {
+        if worst > GROSS_DEVIATION.max(10.0 * lab.tolerance) {
             return Err(match too_small {
                 Some(t) => t.error(&m),
                 None => spec.source.error(
@@ -945,18 +950,18 @@ fn solve_run(
             });
         }
         let cause = match &too_small {
-            Some(t) => t.describe(spec),
+            Some(t) => t.describe(lab),
             None => "the nearest deliverable volumes of its stocks".to_string(),
         };
         for g in &solution.goals {
-            if g.deviation.abs() > spec.tolerance {
+            if g.deviation.abs() > lab.tolerance {
                 solution.flags.push(Flag {
                     code: "off_target",
                     message: format!(
                         "{} is {:+.2} % from its target (tolerance {} %): {cause}; a finer device or a more dilute stock would help",
                         g.label,
                         g.deviation * 100.0,
-                        units::sig3(spec.tolerance * 100.0)
+                        units::sig3(lab.tolerance * 100.0)
                     ),
                 });
             }
@@ -967,15 +972,15 @@ fn solve_run(
 
 /// The water addition that makes the delivered stocks up to the total exactly.
 fn find_water(m: &RunModel, stocks: &[Addition]) -> Result<Addition> {
-    let spec = m.spec;
+    let lab = m.lab;
     let used: f64 = stocks.iter().map(|a| a.volume).sum();
-    let mut w = spec.total_volume - used;
+    let mut w = lab.total_volume - used;
     if w.abs() < 1e-12 {
         w = 0.0;
     }
-    let delivery = match spec.water_vessel {
-        WaterVessel::Split => find_delivery_in_two(w, &spec.water_devices, &spec.devices),
-        WaterVessel::Only(_) => find_delivery(w, &spec.water_devices, &spec.devices),
+    let delivery = match lab.water_vessel {
+        WaterVessel::Split => find_delivery_in_two(w, &lab.water_devices, &lab.devices),
+        WaterVessel::Only(_) => find_delivery(w, &lab.water_devices, &lab.devices),
     };
     let delivery = delivery.ok_or_else(|| Error::Solver {
         run: m.run.name.clone(),
@@ -989,18 +994,13 @@ fn find_water(m: &RunModel, stocks: &[Addition]) -> Result<Addition> {
 }
 
 /// Achieved concentrations, deviations and ionic strength of a finished recipe.
-pub fn evaluate(
-    spec: &Spec,
-    run: &Run,
-    additions: Vec<Addition>,
-    ionic: Option<f64>,
-) -> RunSolution {
-    let total = spec.total_volume;
+pub fn evaluate(lab: &Lab, run: &Run, additions: Vec<Addition>, ionic: Option<f64>) -> RunSolution {
+    let total = lab.total_volume;
     let mut concentrations: Vec<(String, f64)> = Vec::new();
     let mut ionic_strength = 0.0;
     for a in &additions {
         let Some(s) = a.stock else { continue };
-        let st = &spec.stocks[s];
+        let st = &lab.stocks[s];
         ionic_strength += st.ionic_strength() * a.volume / total;
         for (sp, c) in &st.contains {
             let amount = c * a.volume / total;
@@ -1052,13 +1052,13 @@ pub fn evaluate(
 // ---------------------------------------------------------------------------------------------
 
 fn water_error(m: &RunModel) -> Error {
-    let spec = m.spec;
+    let (spec, lab) = (m.spec, m.lab);
     spec.source.error(
         m.run.span.clone(),
         format!(
             "run '{}': the water devices cannot make the run up to {} mL",
             m.run.name,
-            units::ml(spec.total_volume, 2)
+            units::ml(lab.total_volume, 2)
         ),
         "no way to make up the volume",
         "allow a larger device for water in [water] devices",
@@ -1067,7 +1067,7 @@ fn water_error(m: &RunModel) -> Error {
 
 /// The continuous model cannot meet the targets: say which one, and why.
 fn explain_unreachable(m: &RunModel, best: f64) -> Error {
-    let spec = m.spec;
+    let (spec, lab) = (m.spec, m.lab);
     let run = &m.run.name;
     let total = m.total_ml();
     // 1. A single goal out of reach on its own.
@@ -1080,7 +1080,7 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
         let mut used_names = Vec::new();
         let mut limited_by_device = false;
         for &i in &order {
-            let cap = m.cap_ml(&spec.stocks[m.vary[i]].devices);
+            let cap = m.cap_ml(&lab.stocks[m.vary[i]].devices);
             let take = left.min(cap);
             if cap < left {
                 limited_by_device = true;
@@ -1099,14 +1099,14 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
         } else {
             format!("{} {}", g.label, units::concentration(g.target))
         };
-        if g.target > most_c * (1.0 + spec.tolerance) {
+        if g.target > most_c * (1.0 + lab.tolerance) {
             let (message, help) = match used_names.as_slice() {
                 [] => (
                     format!("run '{run}': {what} cannot be reached: no stock that varies holds it"),
                     "add a stock that holds this species".to_string(),
                 ),
                 [(s, take)] => {
-                    let name = &spec.stocks[*s].name;
+                    let name = &lab.stocks[*s].name;
                     let limit = if limited_by_device {
                         format!(
                             "the {} mL its largest allowed device delivers",
@@ -1131,7 +1131,7 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
                     format!(
                         "run '{run}': {what} is out of reach: all of {} together give at most {}",
                         many.iter()
-                            .map(|(s, _)| format!("'{}'", spec.stocks[*s].name))
+                            .map(|(s, _)| format!("'{}'", lab.stocks[*s].name))
                             .collect::<Vec<_>>()
                             .join(", "),
                         units::concentration(most_c)
@@ -1143,7 +1143,7 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
                 .source
                 .error(g.span.clone(), message, "out of reach", help);
         }
-        if g.target < least_c * (1.0 - spec.tolerance) {
+        if g.target < least_c * (1.0 - lab.tolerance) {
             return spec.source.error(
                 g.span.clone(),
                 format!(
@@ -1171,11 +1171,11 @@ fn explain_unreachable(m: &RunModel, best: f64) -> Error {
             needed.push(format!(
                 "{} mL of '{}'",
                 trim_ml(v * 1e-3),
-                spec.stocks[m.vary[i]].name
+                lab.stocks[m.vary[i]].name
             ));
         }
     }
-    if sum_needed > m.free_ml * (1.0 + spec.tolerance) {
+    if sum_needed > m.free_ml * (1.0 + lab.tolerance) {
         return spec.source.error(
             m.run.span.clone(),
             format!(
@@ -1209,18 +1209,18 @@ struct TooSmall {
 
 impl TooSmall {
     fn find(m: &RunModel, ideal: &[f64]) -> Option<TooSmall> {
-        let spec = m.spec;
+        let lab = m.lab;
         ideal.iter().enumerate().find_map(|(i, &v_ml)| {
             if v_ml <= 1e-9 {
                 return None;
             }
             let stock = m.vary[i];
-            let (min, device) = spec.stocks[stock]
+            let (min, device) = lab.stocks[stock]
                 .devices
                 .iter()
-                .map(|&d| (spec.devices[d].min, d))
+                .map(|&d| (lab.devices[d].min, d))
                 .min_by(|a, b| a.0.total_cmp(&b.0))?;
-            (v_ml * 1e-3 < min * (1.0 - spec.tolerance)).then_some(TooSmall {
+            (v_ml * 1e-3 < min * (1.0 - lab.tolerance)).then_some(TooSmall {
                 stock,
                 ideal: v_ml * 1e-3,
                 min,
@@ -1229,21 +1229,21 @@ impl TooSmall {
         })
     }
 
-    fn describe(&self, spec: &Spec) -> String {
+    fn describe(&self, lab: &Lab) -> String {
         format!(
             "no allowed device delivers {} mL of '{}' (the smallest is {} mL with '{}')",
             trim_ml(self.ideal),
-            spec.stocks[self.stock].name,
+            lab.stocks[self.stock].name,
             trim_ml(self.min),
-            spec.devices[self.device].name
+            lab.devices[self.device].name
         )
     }
 
     fn error(&self, m: &RunModel) -> Error {
-        let spec = m.spec;
+        let (spec, lab) = (m.spec, m.lab);
         spec.source.error(
-            spec.stocks[self.stock].name_span.clone(),
-            format!("run '{}': {}", m.run.name, self.describe(spec)),
+            lab.stocks[self.stock].name_span.clone(),
+            format!("run '{}': {}", m.run.name, self.describe(lab)),
             "volume too small for its devices",
             "allow a smaller device for this stock (devices = [...]), or use a more dilute stock",
         )
@@ -1255,21 +1255,21 @@ fn explain_integer_infeasible(m: &RunModel, ideal: &[f64]) -> Error {
     if let Some(t) = TooSmall::find(m, ideal) {
         return t.error(m);
     }
-    let spec = m.spec;
-    let steps: Vec<String> = spec
+    let (spec, lab) = (m.spec, m.lab);
+    let steps: Vec<String> = lab
         .water_devices
         .iter()
         .map(|&d| {
-            let dev = &spec.devices[d];
+            let dev = &lab.devices[d];
             format!("'{}' ({} mL steps)", dev.name, trim_ml(dev.step))
         })
         .collect();
     spec.source.error(
-        spec.total_span.clone(),
+        lab.total_span.clone(),
         format!(
             "run '{}': no combination of deliverable volumes adds up to exactly {} mL",
             m.run.name,
-            trim_ml(spec.total_volume)
+            trim_ml(lab.total_volume)
         ),
         "cannot be made up exactly",
         format!(
@@ -1282,6 +1282,11 @@ fn explain_integer_infeasible(m: &RunModel, ideal: &[f64]) -> Error {
 
 #[cfg(test)]
 mod tests {
+    /// Solve a test spec, which always lists stocks.
+    fn solve_spec(s: &Spec) -> Result<Solution> {
+        solve(s, s.lab.as_ref().unwrap())
+    }
+
     use super::*;
     use crate::error::SpecSource;
     use approx::assert_relative_eq;
@@ -1336,7 +1341,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         // r1: I- 10.0 mM × 50 mL / 50.0 mM = 10.0 mL; BrO3- 8.00 mM × 50 / 40.0 = 10.0 mL;
         // thiosulfate 0.200 mM × 50 / 2.00 = 5.00 mL; water 25.0 mL.
         let s = spec(BASE);
-        let sol = solve(&s).unwrap();
+        let sol = solve_spec(&s).unwrap();
         let r1 = &sol.runs[0];
         assert_relative_eq!(r1.volume_of(0), 10.0e-3, epsilon = 1e-12);
         assert_relative_eq!(r1.volume_of(1), 10.0e-3, epsilon = 1e-12);
@@ -1377,7 +1382,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
                 "targets = { \"I-\" = \"5.00 mM\", \"BrO3-\" = \"4.00 mM\", \"H+\" = \"50.0 mM\" }",
             );
         let s = spec(&text);
-        let sol = solve(&s).unwrap();
+        let sol = solve_spec(&s).unwrap();
         let r1 = &sol.runs[0];
         assert_relative_eq!(r1.volume_of(1), 5.0e-3, epsilon = 1e-12);
         assert_relative_eq!(r1.volume_of(3), 10.0e-3, epsilon = 1e-12);
@@ -1396,7 +1401,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         // 7.77 mM I- in 50 mL from 50.0 mM needs 7.77 mL; the 0.10 mL buret gives 7.80 mL,
         // +0.386 % (within 0.5 %), the nearest on its graduation.
         let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"7.77 mM\"");
-        let sol = solve(&spec(&text)).unwrap();
+        let sol = solve_spec(&spec(&text)).unwrap();
         assert_relative_eq!(sol.runs[0].volume_of(0), 7.8e-3, epsilon = 1e-12);
         assert!(sol.runs[0].flags.is_empty());
     }
@@ -1404,7 +1409,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
     #[test]
     fn unreachable_target_names_run_species_and_stock() {
         let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"60.0 mM\"");
-        let e = solve(&spec(&text)).unwrap_err();
+        let e = solve_spec(&spec(&text)).unwrap_err();
         let msg = e.message();
         assert!(msg.contains("run 'r1'"), "{msg}");
         assert!(msg.contains("I- 60.0 mM"), "{msg}");
@@ -1414,7 +1419,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
     #[test]
     fn identical_runs_are_solved_once() {
         let text = BASE.replace("\"I-\" = \"5.00 mM\"", "\"I-\" = \"10.0 mM\"");
-        let sol = solve(&spec(&text)).unwrap();
+        let sol = solve_spec(&spec(&text)).unwrap();
         assert_eq!(sol.runs[1].same_as, Some(0));
         assert_eq!(sol.runs[1].additions, sol.runs[0].additions);
     }
@@ -1431,7 +1436,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
                 "[[stock]]\nname = \"KNO3 1.00 M\"\ncontains = { \"K+\" = \"1.00 M\", \"NO3-\" = \"1.00 M\" }\ndevices = [\"1 mL pipet\"]\n\n[[device]]\nname = \"1 mL pipet\"\nkind = \"volumetric pipet\"\nvolume = \"1 mL\"\nfills = 5\n\n[[device]]",
             )
             .replace("[mixing]", "[ionic_strength]\nhold = \"0.100 M\"\nusing = \"KNO3 1.00 M\"\n\n[mixing]");
-        let sol = solve(&spec(&text)).unwrap();
+        let sol = solve_spec(&spec(&text)).unwrap();
         let r1 = &sol.runs[0];
         for g in r1.goals.iter().filter(|g| g.label != "ionic strength") {
             assert!(g.deviation.abs() < 1e-9, "{g:?}");

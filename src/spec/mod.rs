@@ -119,13 +119,15 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
     #[test]
     fn loads_a_small_spec() {
         let s = load_str(SMALL).unwrap();
-        assert_eq!(s.stocks.len(), 3);
-        assert_eq!(s.timing.stock, Some(2));
         assert_eq!(s.runs[0].targets[0].species, "I-");
-        approx::assert_relative_eq!(s.total_volume, 0.020);
-        approx::assert_relative_eq!(s.overage, 0.10);
+        let lab = s.lab.as_ref().expect("a planning spec has its lab part");
+        assert_eq!(lab.stocks.len(), 3);
+        assert_eq!(lab.timing_stock, 2);
+        approx::assert_relative_eq!(lab.total_volume, 0.020);
+        approx::assert_relative_eq!(lab.overage, 0.10);
         // ½ Σ c z² for 0.0400 M KBrO3 = 0.0400 M (1:1 electrolyte).
-        approx::assert_relative_eq!(s.stocks[1].ionic_strength(), 0.040);
+        approx::assert_relative_eq!(lab.stocks[1].ionic_strength(), 0.040);
+        assert!(s.prior.is_none() && s.design.is_none());
     }
 
     #[test]

@@ -1,6 +1,6 @@
 //! The checked spec: everything the later stages need, in SI units, names resolved.
 
-use crate::error::SpecSource;
+use crate::error::{Result, SpecSource};
 use crate::reference::glassware::Device;
 use crate::reference::species;
 use std::fmt;
@@ -140,9 +140,6 @@ pub struct Timing {
     pub species: String,
     /// mol/L, identical in every run.
     pub concentration: f64,
-    /// Index of the one stock that holds the timing species (always set when planning; a
-    /// forecast-only spec may have no stocks).
-    pub stock: Option<usize>,
     pub span: Range<usize>,
 }
 
@@ -230,48 +227,95 @@ pub struct Mixing {
     pub poured: Vessel,
 }
 
-/// A checked plan: everything the later stages need, in internal units.
+/// A checked spec. What a command needs is present by type: [`Lab`] when the spec lists stocks
+/// and a run volume (required by `plan` and `stocks`), [`Prior`] when it has a `[reaction]`,
+/// [`Design`] when it has a `[design]`. A stage that needs a part takes it as a parameter.
 #[derive(Debug, Clone)]
 pub struct Spec {
     pub source: SpecSource,
     pub title: String,
-    /// L (0 in a spec read only for a forecast, which needs no volumes)
-    pub total_volume: f64,
-    pub total_span: Range<usize>,
     pub stations: u32,
     pub replicates: u32,
-    /// fraction, e.g. 0.15
-    pub overage: f64,
-    /// K
+    /// Planned room temperature, K.
     pub temperature: Option<f64>,
-    /// largest accepted relative deviation of a final concentration
-    pub tolerance: f64,
-    /// volumetric flask sizes (L), ascending
-    pub flasks: Vec<f64>,
-    /// relative standard uncertainty of every stock's concentration
-    pub stock_uncertainty: f64,
     pub timing: Timing,
+    pub runs: Vec<Run>,
+    /// Stocks, glassware and volumes, when the spec lists stocks and a run volume.
+    pub lab: Option<Lab>,
+    /// The prior rate law and the forecast settings, when the spec has a `[reaction]`.
+    pub prior: Option<Prior>,
+    /// The `[design]` table, when given.
+    pub design: Option<Design>,
+}
+
+/// The bench side of a spec: what `plan` and `stocks` solve and total.
+#[derive(Debug, Clone)]
+pub struct Lab {
+    /// Volume of every run, L.
+    pub total_volume: f64,
+    pub total_span: Range<usize>,
+    /// Fraction added to the stock totals, e.g. 0.15.
+    pub overage: f64,
+    /// Largest accepted relative deviation of a final concentration.
+    pub tolerance: f64,
+    /// Volumetric flask sizes (L), ascending.
+    pub flasks: Vec<f64>,
+    /// Relative standard uncertainty of every stock's concentration.
+    pub stock_uncertainty: f64,
     pub stocks: Vec<Stock>,
     pub devices: Vec<Device>,
     pub water_devices: Vec<usize>,
     pub water_vessel: WaterVessel,
     pub mixing: Mixing,
     pub ionic: Option<IonicHold>,
-    pub runs: Vec<Run>,
-    /// The prior rate law, when the spec gives one.
-    pub reaction: Option<crate::spec::Reaction>,
-    /// Present exactly when `reaction` is.
-    pub forecast: Option<ForecastSettings>,
-    /// The `[design]` table, when given.
-    pub design: Option<Design>,
+    /// Index of the one stock that holds the timing species.
+    pub timing_stock: usize,
+}
+
+/// The prior rate law with what a forecast needs beyond it.
+#[derive(Debug, Clone)]
+pub struct Prior {
+    pub reaction: crate::spec::Reaction,
+    pub settings: ForecastSettings,
 }
 
 impl Spec {
-    /// The timing stock of a spec read for planning (checked there to exist).
-    pub fn timing_stock(&self) -> usize {
-        self.timing
-            .stock
-            .expect("a spec read for planning has a timing stock")
+    /// The lab part, or a located error saying what the command needs.
+    pub fn need_lab(&self) -> Result<&Lab> {
+        self.lab.as_ref().ok_or_else(|| {
+            self.source.error(
+                self.source.table("[plan]"),
+                "this command needs stocks, glassware and a run volume",
+                "in [plan]",
+                "add total_volume to [plan], a [[stock]] for each bottle and a [[device]] for each kind of glassware",
+            )
+        })
+    }
+
+    /// The prior, or a located error saying how to give one.
+    pub fn need_prior(&self) -> Result<&Prior> {
+        self.prior.as_ref().ok_or_else(|| {
+            let n = self.source.text.trim_end().len();
+            self.source.error(
+                n..n,
+                "this command needs a forecast, and the spec has no [reaction]",
+                "no [reaction]",
+                "add [reaction] with a preset, e.g. preset = \"bromate-iodide\"",
+            )
+        })
+    }
+
+    /// The `[design]` table, or a located error.
+    pub fn need_design(&self) -> Result<&Design> {
+        self.design.as_ref().ok_or_else(|| {
+            let n = self.source.text.trim_end().len();
+            self.source.error(
+                n..n,
+                "clockprep design needs a [design] table",
+                "no [design] in the spec",
+                "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\"",
+            )
+        })
     }
 }
 

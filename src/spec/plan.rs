@@ -1,19 +1,138 @@
 //! The whole spec: [plan], [timing], [water], [mixing], [ionic_strength] and [[run]], in
-//! the order the later sections need them.
+//! the order the later sections need them. [`Checker::check`] reads the sections in turn and
+//! assembles the typed [`Spec`].
 
 use super::checker::{inner, Checker};
 use super::model::*;
 use super::raw::*;
-use crate::error::{Result, SpecSource};
+use crate::error::{Error, Result, SpecSource};
 use crate::reference::glassware::Device;
 use crate::units::Kind;
 use std::collections::{BTreeSet, HashMap};
-use toml::Value;
+use std::ops::Range;
+use toml::{Spanned, Value};
+
+/// The settings of `[plan]` that only the bench side uses.
+struct LabSettings {
+    overage: f64,
+    tolerance: f64,
+    flasks: Vec<f64>,
+    stock_uncertainty: f64,
+}
+
+/// The devices by name, for resolving `devices = [...]` lists.
+struct Shelf {
+    devices: Vec<Device>,
+    index: HashMap<String, usize>,
+}
+
+/// The species the stocks hold, when the spec lists stocks (else nothing is checked against
+/// them: a forecast-only spec names its species freely).
+struct Known<'a> {
+    species: BTreeSet<&'a str>,
+    check: bool,
+}
 
 impl Checker<'_> {
     pub(super) fn check(&self, raw: RawSpec, source: SpecSource) -> Result<Spec> {
         self.check_sizes(&raw)?;
         let plan = raw.plan.get_ref();
+        let title = self.title(plan)?;
+        let total = self.total_volume(&raw.plan)?;
+        let stations = self.count(&plan.stations, "stations", 1)?;
+        let replicates = self.count(&plan.replicates, "replicates", 1)?;
+        let settings = LabSettings {
+            overage: self.overage(plan)?,
+            tolerance: self.tolerance(plan)?,
+            flasks: self.flasks(&raw.plan)?,
+            stock_uncertainty: self.stock_uncertainty(plan)?,
+        };
+        let temperature = self.temperature(plan)?;
+        let shelf = self.shelf(&raw)?;
+        let stocks = self.stocks(&raw, &shelf)?;
+        // A forecast needs no stocks; when a forecast-only spec lists none, species are not
+        // checked against them.
+        if self.purpose == Purpose::Plan && stocks.is_empty() {
+            return Err(self.err(
+                self.end(),
+                "the spec lists no stocks",
+                "no [[stock]] in the spec",
+                "add a [[stock]] for each bottle on the shelf",
+            ));
+        }
+        let known = Known {
+            species: stocks
+                .iter()
+                .flat_map(|s| s.contains.iter().map(|(sp, _)| sp.as_str()))
+                .collect(),
+            check: !stocks.is_empty(),
+        };
+        let t = raw.timing.get_ref();
+        let timing = Timing {
+            species: self.species(&t.species)?,
+            concentration: self.positive(
+                &t.concentration,
+                Kind::Concentration,
+                "timing concentration",
+            )?,
+            span: inner(t.concentration.span(), &self.src.text),
+        };
+        let timing_stock = self.timing_stock(t, &timing.species, &stocks, &known)?;
+        let (water_devices, water_vessel) = self.water(&raw, &shelf)?;
+        let mixing = self.mixing(&raw, &known)?;
+        let ionic = self.ionic(&raw, &stocks, timing_stock)?;
+        let runs = self.runs(&raw, &known, &timing.species)?;
+        let design = match &raw.design {
+            Some(d) => Some(self.design(d, &known.species, known.check, &timing.species)?),
+            None if self.purpose == Purpose::Design => {
+                return Err(self.err(self.end(), "clockprep design needs a [design] table", "no [design] in the spec", "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\""))
+            }
+            None => None,
+        };
+        self.same_species(&raw, &runs)?;
+        let prior = self.prior(
+            &raw,
+            temperature,
+            &known,
+            &runs,
+            design.as_ref(),
+            &timing.species,
+        )?;
+        // The bench side exists when the spec lists stocks and gives a run volume; planning
+        // has checked above that it does.
+        let lab = match (total, timing_stock) {
+            (Some((total_volume, total_span)), Some(timing_stock)) => Some(Lab {
+                total_volume,
+                total_span,
+                overage: settings.overage,
+                tolerance: settings.tolerance,
+                flasks: settings.flasks,
+                stock_uncertainty: settings.stock_uncertainty,
+                stocks,
+                devices: shelf.devices,
+                water_devices,
+                water_vessel,
+                mixing,
+                ionic,
+                timing_stock,
+            }),
+            _ => None,
+        };
+        Ok(Spec {
+            source,
+            title,
+            stations,
+            replicates,
+            temperature,
+            timing,
+            runs,
+            lab,
+            prior,
+            design,
+        })
+    }
+
+    fn title(&self, plan: &RawPlan) -> Result<String> {
         let title = plan.title.get_ref().trim().to_string();
         if title.is_empty() {
             return Err(self.err(
@@ -23,15 +142,20 @@ impl Checker<'_> {
                 "e.g. title = \"Section 3 rate law\"",
             ));
         }
-        // A forecast needs no volumes; planning does.
-        let (total_volume, total_span) = match &plan.total_volume {
-            Some(q) => (
+        Ok(title)
+    }
+
+    /// The volume of every run: required when planning, optional otherwise.
+    fn total_volume(&self, plan_span: &Spanned<RawPlan>) -> Result<Option<(f64, Range<usize>)>> {
+        let plan = plan_span.get_ref();
+        Ok(match &plan.total_volume {
+            Some(q) => Some((
                 self.positive(q, Kind::Volume, "total_volume")?,
                 inner(q.span(), &self.src.text),
-            ),
-            None if self.purpose == Purpose::Forecast => (0.0, raw.plan.span()),
+            )),
+            None if self.purpose != Purpose::Plan => None,
             None => {
-                let at = raw.plan.span().start;
+                let at = plan_span.span().start;
                 return Err(self.err(
                     at..at,
                     "[plan] needs total_volume",
@@ -39,10 +163,11 @@ impl Checker<'_> {
                     "add the volume of every run, e.g. total_volume = \"50.0 mL\"",
                 ));
             }
-        };
-        let stations = self.count(&plan.stations, "stations", 1)?;
-        let replicates = self.count(&plan.replicates, "replicates", 1)?;
-        let overage = match &plan.overage {
+        })
+    }
+
+    fn overage(&self, plan: &RawPlan) -> Result<f64> {
+        Ok(match &plan.overage {
             None => 0.10,
             Some(q) => {
                 let v = self.qty(q, Kind::Fraction, "overage")?;
@@ -56,8 +181,11 @@ impl Checker<'_> {
                 }
                 v
             }
-        };
-        let tolerance = match &plan.tolerance {
+        })
+    }
+
+    fn tolerance(&self, plan: &RawPlan) -> Result<f64> {
+        Ok(match &plan.tolerance {
             None => 0.01,
             Some(q) => {
                 let v = self.positive(q, Kind::Fraction, "tolerance")?;
@@ -71,8 +199,11 @@ impl Checker<'_> {
                 }
                 v
             }
-        };
-        let temperature = match &plan.temperature {
+        })
+    }
+
+    fn temperature(&self, plan: &RawPlan) -> Result<Option<f64>> {
+        Ok(match &plan.temperature {
             None => None,
             Some(q) => {
                 let t = self.qty(q, Kind::Temperature, "temperature")?;
@@ -86,12 +217,16 @@ impl Checker<'_> {
                 }
                 Some(t)
             }
-        };
-        let flasks = match &plan.flasks {
+        })
+    }
+
+    fn flasks(&self, plan_span: &Spanned<RawPlan>) -> Result<Vec<f64>> {
+        let plan = plan_span.get_ref();
+        Ok(match &plan.flasks {
             None => DEFAULT_FLASKS_ML.iter().map(|v| v * 1e-3).collect(),
             Some(list) => {
                 if list.is_empty() {
-                    let at = raw.plan.span().start;
+                    let at = plan_span.span().start;
                     return Err(self.err(
                         at..at + "[plan]".len(),
                         "[plan] flasks is an empty list",
@@ -107,11 +242,13 @@ impl Checker<'_> {
                 out.dedup();
                 out
             }
-        };
+        })
+    }
 
-        // Weighing and making up to the mark: about 0.3 % (common practice for class A flasks
-        // and an analytical balance).
-        let stock_uncertainty = match &plan.stock_uncertainty {
+    /// Weighing and making up to the mark: about 0.3 % by default (common practice for class
+    /// A flasks and an analytical balance).
+    fn stock_uncertainty(&self, plan: &RawPlan) -> Result<f64> {
+        Ok(match &plan.stock_uncertainty {
             None => 0.003,
             Some(q) => {
                 let v = self.qty(q, Kind::Fraction, "stock_uncertainty")?;
@@ -125,9 +262,11 @@ impl Checker<'_> {
                 }
                 v
             }
-        };
+        })
+    }
 
-        // Devices
+    /// The `[[device]]`s, each name once.
+    fn shelf(&self, raw: &RawSpec) -> Result<Shelf> {
         let mut devices: Vec<Device> = Vec::new();
         let mut device_index: HashMap<String, usize> = HashMap::new();
         for d in &raw.device {
@@ -148,49 +287,56 @@ impl Checker<'_> {
         if devices.is_empty() && self.purpose == Purpose::Plan {
             return Err(self.err(self.end(), "the spec lists no glassware", "no [[device]] in the spec", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
         }
-        let all_devices: Vec<usize> = (0..devices.len()).collect();
-        let resolve_devices = |names: &Option<Vec<Name>>| -> Result<Vec<usize>> {
-            match names {
-                None => Ok(all_devices.clone()),
-                Some(list) => {
-                    let mut out = Vec::new();
-                    for n in list {
-                        let i = device_index
-                            .get(n.get_ref().trim())
-                            .copied()
-                            .ok_or_else(|| {
-                                self.err(
-                                    inner(n.span(), &self.src.text),
-                                    format!("unknown device '{}'", n.get_ref()),
-                                    "not a [[device]] name",
-                                    format!(
-                                        "use one of: {}",
-                                        devices
-                                            .iter()
-                                            .map(|d| format!("\"{}\"", d.name))
-                                            .collect::<Vec<_>>()
-                                            .join(", ")
-                                    ),
-                                )
-                            })?;
-                        if !out.contains(&i) {
-                            out.push(i);
-                        }
-                    }
-                    if out.is_empty() {
-                        return Err(self.err(
-                            self.end(),
-                            "devices = [] allows no device",
-                            "an empty devices list",
-                            "list at least one device, or leave the key out to allow all",
-                        ));
-                    }
-                    Ok(out)
-                }
-            }
-        };
+        Ok(Shelf {
+            devices,
+            index: device_index,
+        })
+    }
 
-        // Stocks
+    /// A `devices = [...]` list as indices; absent means every device.
+    fn resolve_devices(&self, names: &Option<Vec<Name>>, shelf: &Shelf) -> Result<Vec<usize>> {
+        let (devices, device_index) = (&shelf.devices, &shelf.index);
+        match names {
+            None => Ok((0..devices.len()).collect()),
+            Some(list) => {
+                let mut out = Vec::new();
+                for n in list {
+                    let i = device_index
+                        .get(n.get_ref().trim())
+                        .copied()
+                        .ok_or_else(|| {
+                            self.err(
+                                inner(n.span(), &self.src.text),
+                                format!("unknown device '{}'", n.get_ref()),
+                                "not a [[device]] name",
+                                format!(
+                                    "use one of: {}",
+                                    devices
+                                        .iter()
+                                        .map(|d| format!("\"{}\"", d.name))
+                                        .collect::<Vec<_>>()
+                                        .join(", ")
+                                ),
+                            )
+                        })?;
+                    if !out.contains(&i) {
+                        out.push(i);
+                    }
+                }
+                if out.is_empty() {
+                    return Err(self.err(
+                        self.end(),
+                        "devices = [] allows no device",
+                        "an empty devices list",
+                        "list at least one device, or leave the key out to allow all",
+                    ));
+                }
+                Ok(out)
+            }
+        }
+    }
+
+    fn stocks(&self, raw: &RawSpec, shelf: &Shelf) -> Result<Vec<Stock>> {
         let mut stocks: Vec<Stock> = Vec::new();
         for s in &raw.stock {
             let r = s.get_ref();
@@ -258,68 +404,56 @@ impl Checker<'_> {
                 vessel: r.vessel.as_ref().map(|v| self.vessel(v)).transpose()?,
                 vessel_span: r.vessel.as_ref().map(|v| v.span()),
                 fixed_volume,
-                devices: resolve_devices(&r.devices)?,
+                devices: self.resolve_devices(&r.devices, shelf)?,
                 note: r.note.clone(),
                 span: s.span(),
                 name_span: inner(r.name.span(), &self.src.text),
             });
         }
-        // A forecast needs no stocks; when a forecast-only spec lists none, species are not
-        // checked against them.
-        let check_species = self.purpose == Purpose::Plan || !stocks.is_empty();
-        if !check_species {
-            // fall through: nothing to check against
-        } else if stocks.is_empty() {
-            return Err(self.err(
-                self.end(),
-                "the spec lists no stocks",
-                "no [[stock]] in the spec",
-                "add a [[stock]] for each bottle on the shelf",
-            ));
-        }
-        let known: BTreeSet<&str> = stocks
-            .iter()
-            .flat_map(|s| s.contains.iter().map(|(sp, _)| sp.as_str()))
-            .collect();
-        let unknown_species = |name: &Name, sp: &str| {
-            self.err(
-                inner(name.span(), &self.src.text),
-                format!("no stock contains {sp}"),
-                "unknown species",
-                format!(
-                    "species in the stocks: {}",
-                    known.iter().copied().collect::<Vec<_>>().join(", ")
-                ),
-            )
-        };
+        Ok(stocks)
+    }
 
-        // Timing reagent
-        let t = raw.timing.get_ref();
-        let timing_species = self.species(&t.species)?;
-        let timing_conc = self.positive(
-            &t.concentration,
-            Kind::Concentration,
-            "timing concentration",
-        )?;
+    fn unknown_species(&self, name: &Name, sp: &str, known: &Known) -> Error {
+        self.err(
+            inner(name.span(), &self.src.text),
+            format!("no stock contains {sp}"),
+            "unknown species",
+            format!(
+                "species in the stocks: {}",
+                known.species.iter().copied().collect::<Vec<_>>().join(", ")
+            ),
+        )
+    }
+
+    /// The one stock that holds the timing species (none when no stocks are listed).
+    fn timing_stock(
+        &self,
+        t: &RawTiming,
+        timing_species: &str,
+        stocks: &[Stock],
+        known: &Known,
+    ) -> Result<Option<usize>> {
         let holders: Vec<usize> = (0..stocks.len())
             .filter(|&i| stocks[i].in_runs && stocks[i].concentration_of(&timing_species) > 0.0)
             .collect();
-        let timing_stock =
-            match holders.as_slice() {
-                [] if !check_species => None,
-                [] => return Err(unknown_species(&t.species, &timing_species)),
-                [one] => Some(*one),
-                [_, second, ..] => return Err(self.err(
+        Ok(match holders.as_slice() {
+            [] if !known.check => None,
+            [] => return Err(self.unknown_species(&t.species, timing_species, known)),
+            [one] => Some(*one),
+            [_, second, ..] => {
+                return Err(self.err(
                     stocks[*second].name_span.clone(),
                     format!("the timing species {timing_species} is in more than one stock"),
                     "a second source",
                     "keep the timing reagent in one stock, so every run gets the same volume of it",
-                )),
-            };
+                ))
+            }
+        })
+    }
 
-        // Water
-        let (water_devices, water_vessel) = match &raw.water {
-            None => (all_devices.clone(), WaterVessel::Split),
+    fn water(&self, raw: &RawSpec, shelf: &Shelf) -> Result<(Vec<usize>, WaterVessel)> {
+        Ok(match &raw.water {
+            None => ((0..shelf.devices.len()).collect(), WaterVessel::Split),
             Some(w) => {
                 let vessel = match &w.vessel {
                     None => WaterVessel::Split,
@@ -328,12 +462,13 @@ impl Checker<'_> {
                     }
                     Some(v) => WaterVessel::Only(self.vessel(v)?),
                 };
-                (resolve_devices(&w.devices)?, vessel)
+                (self.resolve_devices(&w.devices, shelf)?, vessel)
             }
-        };
+        })
+    }
 
-        // Mixing
-        let mixing = match &raw.mixing {
+    fn mixing(&self, raw: &RawSpec, known: &Known) -> Result<Mixing> {
+        Ok(match &raw.mixing {
             None => Mixing {
                 keep_apart: Vec::new(),
                 span: None,
@@ -345,8 +480,8 @@ impl Checker<'_> {
                     let mut group = Vec::new();
                     for n in g.get_ref() {
                         let sp = self.species(n)?;
-                        if check_species && !known.contains(sp.as_str()) {
-                            return Err(unknown_species(n, &sp));
+                        if known.check && !known.species.contains(sp.as_str()) {
+                            return Err(self.unknown_species(n, &sp, known));
                         }
                         group.push(sp);
                     }
@@ -381,10 +516,16 @@ impl Checker<'_> {
                     poured,
                 }
             }
-        };
+        })
+    }
 
-        // Ionic strength
-        let ionic = match &raw.ionic_strength {
+    fn ionic(
+        &self,
+        raw: &RawSpec,
+        stocks: &[Stock],
+        timing_stock: Option<usize>,
+    ) -> Result<Option<IonicHold>> {
+        Ok(match &raw.ionic_strength {
             None => None,
             Some(i) => {
                 let r = i.get_ref();
@@ -425,9 +566,10 @@ impl Checker<'_> {
                     span: i.span(),
                 })
             }
-        };
+        })
+    }
 
-        // Runs
+    fn runs(&self, raw: &RawSpec, known: &Known, timing_species: &str) -> Result<Vec<Run>> {
         let mut runs: Vec<Run> = Vec::new();
         let mut run_names: std::collections::HashSet<String> = std::collections::HashSet::new();
         for r in &raw.run {
@@ -456,8 +598,8 @@ impl Checker<'_> {
             let mut targets = Vec::new();
             for (k, q) in entries {
                 let sp = self.species(k)?;
-                if check_species && !known.contains(sp.as_str()) {
-                    return Err(unknown_species(k, &sp));
+                if known.check && !known.species.contains(sp.as_str()) {
+                    return Err(self.unknown_species(k, &sp, known));
                 }
                 if sp == timing_species {
                     return Err(self.err(
@@ -491,13 +633,11 @@ impl Checker<'_> {
                 span: r.span(),
             });
         }
-        let design = match &raw.design {
-            Some(d) => Some(self.design(d, &known, check_species, &timing_species)?),
-            None if self.purpose == Purpose::Design => {
-                return Err(self.err(self.end(), "clockprep design needs a [design] table", "no [design] in the spec", "add [design] with base = { \"I-\" = \"2.00 mM\", ... } and scheme = \"one-at-a-time\""))
-            }
-            None => None,
-        };
+        Ok(runs)
+    }
+
+    /// Every run sets the same species; a plan needs at least one run.
+    fn same_species(&self, raw: &RawSpec, runs: &[Run]) -> Result<()> {
         if runs.is_empty() && self.purpose != Purpose::Design {
             return Err(self.err(
                 self.end(),
@@ -522,11 +662,22 @@ impl Checker<'_> {
                 ));
             }
         }
+        Ok(())
+    }
 
-        // Reaction and forecast settings
+    /// The prior rate law and its forecast settings.
+    fn prior(
+        &self,
+        raw: &RawSpec,
+        temperature: Option<f64>,
+        known: &Known,
+        runs: &[Run],
+        design: Option<&Design>,
+        timing_species: &str,
+    ) -> Result<Option<Prior>> {
         let available = |sp: &str| {
-            if check_species {
-                known.contains(sp)
+            if known.check {
+                known.species.contains(sp)
             } else {
                 runs.first()
                     .is_some_and(|r| r.targets.iter().any(|t| t.species == sp))
@@ -549,41 +700,19 @@ impl Checker<'_> {
                 ))
             }
             None => None,
-            Some(r) => Some(self.reaction(r, &timing_species, &available)?),
+            Some(r) => Some(self.reaction(r, timing_species, &available)?),
         };
-        let forecast = match &reaction {
+        Ok(match reaction {
             None => None,
-            Some(_) => Some(self.forecast_settings(&raw.plan, plan, t, temperature)?),
-        };
-
-        Ok(Spec {
-            source,
-            title,
-            total_volume,
-            total_span,
-            stations,
-            replicates,
-            overage,
-            temperature,
-            tolerance,
-            flasks,
-            stock_uncertainty,
-            timing: Timing {
-                species: timing_species,
-                concentration: timing_conc,
-                stock: timing_stock,
-                span: inner(t.concentration.span(), &self.src.text),
-            },
-            stocks,
-            devices,
-            water_devices,
-            water_vessel,
-            mixing,
-            ionic,
-            runs,
-            reaction,
-            forecast,
-            design,
+            Some(reaction) => Some(Prior {
+                reaction,
+                settings: self.forecast_settings(
+                    &raw.plan,
+                    raw.plan.get_ref(),
+                    raw.timing.get_ref(),
+                    temperature,
+                )?,
+            }),
         })
     }
 }
