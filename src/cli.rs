@@ -3,7 +3,8 @@
 
 use crate::error::{Error, SpecSource};
 use crate::export::cards::{self, Paper, Per};
-use crate::export::{self, Format};
+use crate::export::{self, Format, SummaryFormat};
+use crate::output::Target;
 use clap::{Parser, Subcommand, ValueEnum};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -33,15 +34,21 @@ pub enum Command {
     Plan {
         /// The plan spec (TOML).
         spec: PathBuf,
+        /// Output format.
+        #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
+        format: FormatArg,
         #[command(flatten)]
-        out: OutputArgs,
+        write: WriteArgs,
     },
     /// Print the stock preparation sheet: what to make, in which flask, how to weigh it up.
     Stocks {
         /// The plan spec (TOML).
         spec: PathBuf,
+        /// Output format.
+        #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
+        format: FormatArg,
         #[command(flatten)]
-        out: OutputArgs,
+        write: WriteArgs,
     },
     /// Print bench cards (HTML sized for A4 or Letter; PDF through headless Chromium).
     Cards {
@@ -53,30 +60,23 @@ pub enum Command {
         /// Paper size.
         #[arg(long, value_enum, default_value_t = PaperArg::A4)]
         paper: PaperArg,
-        /// Write the HTML here (default: stdout, unless --pdf is given).
-        #[arg(short, long)]
-        output: Option<PathBuf>,
-        /// Also print the cards to this PDF (needs Chromium).
+        /// Also print the cards to this PDF (needs Chromium); the HTML then goes only to
+        /// --output.
         #[arg(long)]
         pdf: Option<PathBuf>,
-        /// Replace output files that exist.
-        #[arg(long)]
-        force: bool,
+        #[command(flatten)]
+        write: WriteArgs,
     },
     /// Write the forecast chart (SVG): predicted times with their temperature band and the
     /// timing window.
     Chart {
         /// The spec (TOML).
         spec: PathBuf,
-        /// Write to this file instead of stdout (atomically; never over the spec).
-        #[arg(short, long)]
-        output: Option<PathBuf>,
-        /// Replace the output file if it exists.
-        #[arg(long)]
-        force: bool,
+        #[command(flatten)]
+        write: WriteArgs,
     },
-    /// Fit the prior rate law to measured times (pilot or class); writes the updated prior as
-    /// a TOML fragment (never edits the spec).
+    /// Fit the prior rate law to measured times (pilot or class); writes the updated prior
+    /// (by default as a TOML fragment; never edits the spec).
     Fit {
         /// The spec (TOML) with the prior in `[reaction]` and the timed runs.
         spec: PathBuf,
@@ -85,37 +85,43 @@ pub enum Command {
         /// Hold orders fixed: "1,1,2" in the rate law's order, or "I-=1,H+=2".
         #[arg(long)]
         orders: Option<String>,
-        /// Write to this file instead of stdout (atomically; never over the spec).
-        #[arg(short, long)]
-        output: Option<PathBuf>,
-        /// Replace the output file if it exists.
-        #[arg(long)]
-        force: bool,
+        /// Output format: the TOML fragment to paste over [reaction], or the fit as a sheet.
+        #[arg(short, long, value_enum, default_value_t = SummaryArg::Toml)]
+        format: SummaryArg,
+        #[command(flatten)]
+        write: WriteArgs,
     },
-    /// Write the runs of a design scheme (`[design]` in the spec) as TOML, with the standard
-    /// error each order and ln k can be expected to have.
+    /// Write the runs of a design scheme (`[design]` in the spec), with the standard error
+    /// each order and ln k can be expected to have (by default as `[[run]]` TOML).
     Design {
         /// The spec (TOML) with `[plan]`, `[timing]`, `[design]` and optionally `[reaction]` and stocks.
         spec: PathBuf,
-        /// Write to this file instead of stdout (atomically; never over the spec).
-        #[arg(short, long)]
-        output: Option<PathBuf>,
-        /// Replace the output file if it exists.
-        #[arg(long)]
-        force: bool,
+        /// Output format: `[[run]]` TOML to paste into a spec, or the design as a sheet.
+        #[arg(short, long, value_enum, default_value_t = SummaryArg::Toml)]
+        format: SummaryArg,
+        #[command(flatten)]
+        write: WriteArgs,
     },
     /// Find the one timing-reagent concentration that times every run best.
     Tune {
         /// The spec (TOML) with `[reaction]` and runs.
         spec: PathBuf,
+        /// Output format (toml: the [timing] line to paste, when a concentration fits).
+        #[arg(short, long, value_enum, default_value_t = SummaryArg::Text)]
+        format: SummaryArg,
+        #[command(flatten)]
+        write: WriteArgs,
     },
     /// Forecast the time to colour of every run from its target concentrations and the prior
     /// rate law in `[reaction]` (no stocks or glassware needed).
     Forecast {
         /// The spec (TOML) with `[plan]`, `[timing]`, `[reaction]` and runs.
         spec: PathBuf,
+        /// Output format.
+        #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
+        format: FormatArg,
         #[command(flatten)]
-        out: OutputArgs,
+        write: WriteArgs,
     },
     /// Print a shell completion script (e.g. clockprep completions bash > ~/.local/share/bash-completion/completions/clockprep).
     Completions {
@@ -124,17 +130,24 @@ pub enum Command {
     },
 }
 
+/// Where the output goes; the same two options on every command that writes.
 #[derive(clap::Args, Debug)]
-pub struct OutputArgs {
-    /// Output format.
-    #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
-    pub format: FormatArg,
-    /// Write to this file instead of stdout (atomically; never over the spec).
+pub struct WriteArgs {
+    /// Write to this file instead of stdout (atomically; never over an input).
     #[arg(short, long)]
     pub output: Option<PathBuf>,
     /// Replace the output file if it exists.
     #[arg(long)]
     pub force: bool,
+}
+
+impl WriteArgs {
+    fn target(&self) -> Target {
+        Target {
+            path: self.output.clone(),
+            force: self.force,
+        }
+    }
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug)]
@@ -170,6 +183,36 @@ impl From<FormatArg> for Format {
     }
 }
 
+/// The formats of `fit`, `design` and `tune`.
+#[derive(ValueEnum, Clone, Copy, Debug)]
+pub enum SummaryArg {
+    Text,
+    Json,
+    Md,
+    Html,
+    Toml,
+}
+
+impl From<SummaryArg> for SummaryFormat {
+    fn from(f: SummaryArg) -> SummaryFormat {
+        match f {
+            SummaryArg::Text => SummaryFormat::Text,
+            SummaryArg::Json => SummaryFormat::Json,
+            SummaryArg::Md => SummaryFormat::Markdown,
+            SummaryArg::Html => SummaryFormat::Html,
+            SummaryArg::Toml => SummaryFormat::Toml,
+        }
+    }
+}
+
+fn exit(flagged: bool) -> i32 {
+    if flagged {
+        EXIT_FLAGGED
+    } else {
+        EXIT_OK
+    }
+}
+
 fn read_spec(path: &Path) -> Result<SpecSource, Error> {
     read_named(path, "spec")
 }
@@ -179,40 +222,47 @@ fn read_named(path: &Path, what: &'static str) -> Result<SpecSource, Error> {
     Ok(SpecSource::new(path.display().to_string(), text))
 }
 
-fn emit(bytes: &[u8], output: Option<&Path>, force: bool, inputs: &[&Path]) -> Result<(), Error> {
-    match output {
-        Some(path) => crate::output::write_file(path, bytes, force, inputs),
-        None => crate::output::write_stdout(bytes),
-    }
-}
-
-/// Run one command; returns the exit code.
+/// Run one command; returns the exit code. Every output is guarded (not an input, not an
+/// existing file unless forced) before any work, and written through one path.
 pub fn run(cli: Cli) -> Result<i32, Error> {
     match cli.command {
-        Command::Plan { spec, out } => {
+        Command::Plan {
+            spec,
+            format,
+            write,
+        } => {
+            let target = write.target();
+            target.guard(&[&spec])?;
             let report = crate::plan(read_spec(&spec)?)?;
-            let bytes = export::export(&report, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
-            Ok(if report.flagged {
-                EXIT_FLAGGED
-            } else {
-                EXIT_OK
-            })
+            target.write(&export::export(&report, format.into()), &[&spec])?;
+            Ok(exit(report.flagged))
         }
-        Command::Stocks { spec, out } => {
+        Command::Stocks {
+            spec,
+            format,
+            write,
+        } => {
+            let target = write.target();
+            target.guard(&[&spec])?;
             let sheet = crate::stocks(read_spec(&spec)?)?;
-            let bytes = export::export_stocks(&sheet, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
+            target.write(&export::export_stocks(&sheet, format.into()), &[&spec])?;
             Ok(EXIT_OK)
         }
         Command::Cards {
             spec,
             per,
             paper,
-            output,
             pdf,
-            force,
+            write,
         } => {
+            let target = write.target();
+            let pdf_target = Target {
+                path: pdf.clone(),
+                force: write.force,
+            };
+            // Refuse before writing anything if an output would be refused.
+            target.guard(&[&spec])?;
+            pdf_target.guard(&[&spec])?;
             let report = crate::plan(read_spec(&spec)?)?;
             let per = match per {
                 PerArg::Station => Per::Station,
@@ -223,70 +273,58 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
                 PaperArg::Letter => Paper::Letter,
             };
             let html = cards::cards(&report, per, paper);
-            // Refuse before writing anything if an output would be refused.
-            for p in output.iter().chain(pdf.iter()) {
-                crate::output::check_not_input(p, &[&spec])?;
-                if p.exists() && !force {
-                    return Err(Error::OutputExists { path: p.clone() });
-                }
+            if target.path.is_some() || pdf.is_none() {
+                target.write(&html, &[&spec])?;
             }
-            if output.is_some() || pdf.is_none() {
-                emit(&html, output.as_deref(), force, &[&spec])?;
-            }
-            if let Some(pdf_path) = pdf {
+            if pdf.is_some() {
                 let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
                 let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
-                crate::output::write_file(&pdf_path, &bytes, force, &[&spec])?;
+                pdf_target.write(&bytes, &[&spec])?;
             }
-            Ok(if report.flagged {
-                EXIT_FLAGGED
-            } else {
-                EXIT_OK
-            })
+            Ok(exit(report.flagged))
         }
-        Command::Chart {
-            spec,
-            output,
-            force,
-        } => {
+        Command::Chart { spec, write } => {
+            let target = write.target();
+            target.guard(&[&spec])?;
             let (svg, flagged) = crate::chart(read_spec(&spec)?)?;
-            emit(svg.as_bytes(), output.as_deref(), force, &[&spec])?;
-            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
+            target.write(svg.as_bytes(), &[&spec])?;
+            Ok(exit(flagged))
         }
         Command::Fit {
             spec,
             times,
             orders,
-            output,
-            force,
+            format,
+            write,
         } => {
-            if let Some(o) = &output {
-                crate::output::check_not_input(o, &[&spec, &times])?;
-            }
+            let target = write.target();
+            target.guard(&[&spec, &times])?;
             let times_source = read_named(&times, "times file")?;
-            let (fragment, flagged) =
-                crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
-            emit(
-                fragment.as_bytes(),
-                output.as_deref(),
-                force,
-                &[&spec, &times],
-            )?;
-            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
+            let sheet = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
+            target.write(&export::export_fit(&sheet, format.into()), &[&spec, &times])?;
+            Ok(exit(sheet.flagged))
         }
         Command::Design {
             spec,
-            output,
-            force,
+            format,
+            write,
         } => {
-            let (runs, flagged) = crate::design(read_spec(&spec)?)?;
-            emit(runs.as_bytes(), output.as_deref(), force, &[&spec])?;
-            Ok(if flagged { EXIT_FLAGGED } else { EXIT_OK })
+            let target = write.target();
+            target.guard(&[&spec])?;
+            let sheet = crate::design(read_spec(&spec)?)?;
+            target.write(&export::export_design(&sheet, format.into()), &[&spec])?;
+            Ok(exit(sheet.flagged))
         }
-        Command::Tune { spec } => {
-            let (text, fits) = crate::tune(read_spec(&spec)?)?;
-            emit(text.as_bytes(), None, false, &[&spec])?;
-            Ok(if fits { EXIT_OK } else { EXIT_FLAGGED })
+        Command::Tune {
+            spec,
+            format,
+            write,
+        } => {
+            let target = write.target();
+            target.guard(&[&spec])?;
+            let sheet = crate::tune(read_spec(&spec)?)?;
+            target.write(&export::export_tune(&sheet, format.into()), &[&spec])?;
+            Ok(exit(!sheet.fits))
         }
         Command::Completions { shell } => {
             use clap::CommandFactory;
@@ -295,11 +333,16 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             crate::output::write_stdout(&out)?;
             Ok(EXIT_OK)
         }
-        Command::Forecast { spec, out } => {
+        Command::Forecast {
+            spec,
+            format,
+            write,
+        } => {
+            let target = write.target();
+            target.guard(&[&spec])?;
             let sheet = crate::forecast_only(read_spec(&spec)?)?;
-            let bytes = export::export_forecast(&sheet, out.format.into());
-            emit(&bytes, out.output.as_deref(), out.force, &[&spec])?;
-            Ok(if sheet.flagged { EXIT_FLAGGED } else { EXIT_OK })
+            target.write(&export::export_forecast(&sheet, format.into()), &[&spec])?;
+            Ok(exit(sheet.flagged))
         }
     }
 }

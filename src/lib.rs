@@ -149,22 +149,26 @@ pub fn initial_concentrations(source: SpecSource) -> Result<(spec::Spec, Vec<Con
     Ok((spec, initial))
 }
 
-/// Fit the prior to measured times; returns the updated prior as a TOML fragment, and
-/// whether the fit carries warnings (outliers, implausible orders, times far from the prior).
-pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Result<(String, bool)> {
+/// Fit the prior to measured times; the report carries the updated prior as a TOML fragment
+/// and the fit's warnings (outliers, implausible orders, times far from the prior).
+pub fn fit(
+    source: SpecSource,
+    times: SpecSource,
+    orders: Option<&str>,
+) -> Result<report::FitSheet> {
     let (spec, initial) = initial_concentrations(source)?;
-    let the_prior = spec.need_prior()?;
-    let prior: Vec<(String, f64)> = the_prior
+    let prior = spec.need_prior()?;
+    let prior_orders: Vec<(String, f64)> = prior
         .reaction
         .terms
         .first()
         .map(|t| t.orders.clone())
         .unwrap_or_default();
-    let species: Vec<String> = prior.iter().map(|(s, _)| s.clone()).collect();
+    let species: Vec<String> = prior_orders.iter().map(|(s, _)| s.clone()).collect();
     let fixed = match orders {
         None => Vec::new(),
         // Every order held at the prior's value: fit k (and Ea) alone.
-        Some(text) if text.trim() == "prior" => prior,
+        Some(text) if text.trim() == "prior" => prior_orders,
         Some(text) => kinetics::fit::parse_orders(text, &species).map_err(|e| {
             SpecSource::new("--orders", text).error(
                 0..text.len(),
@@ -177,20 +181,17 @@ pub fn fit(source: SpecSource, times: SpecSource, orders: Option<&str>) -> Resul
     let trials = kinetics::fit::read_times(&times, &spec)?;
     let result = kinetics::fit::fit(
         &spec,
-        the_prior,
+        prior,
         &initial,
         &trials,
         &kinetics::fit::Options { fixed },
     )?;
-    Ok((
-        kinetics::fit::toml_fragment(&spec, the_prior, &result, &times.name),
-        !result.warnings.is_empty(),
-    ))
+    Ok(report::FitSheet::build(&spec, prior, &result, &times.name))
 }
 
-/// Design a run set from the spec's `[design]`; returns the runs as TOML with the expected
-/// precision as comments, and whether the design carries warnings.
-pub fn design(source: SpecSource) -> Result<(String, bool)> {
+/// Design a run set from the spec's `[design]`: the runs, their expected precision, and the
+/// runs as `[[run]]` TOML.
+pub fn design(source: SpecSource) -> Result<report::DesignSheet> {
     let spec = spec::load_for(source, spec::Purpose::Design)?;
     let d = spec.need_design()?;
     let runs = kinetics::design::generate(d);
@@ -215,22 +216,18 @@ pub fn design(source: SpecSource) -> Result<(String, bool)> {
         },
     };
     let report = kinetics::design::assess(&spec, d, runs, &volumetric, warnings);
-    Ok((
-        kinetics::design::toml_runs(&spec, d, &report),
-        !report.warnings.is_empty(),
-    ))
+    Ok(report::DesignSheet::build(&spec, d, &report))
 }
 
-/// Tune the timing-reagent concentration; returns the report as text.
-pub fn tune(source: SpecSource) -> Result<(String, bool)> {
-    use std::fmt::Write;
+/// Tune the timing-reagent concentration.
+pub fn tune(source: SpecSource) -> Result<report::TuneSheet> {
     let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let prior = spec.need_prior()?;
     let initial: Vec<Concentrations> = spec
         .runs
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let prior = spec.need_prior()?;
     let t = kinetics::tune::tune(&spec, prior, &initial).map_err(|e| {
         spec.source.error(
             spec.source.table("[reaction]"),
@@ -239,58 +236,5 @@ pub fn tune(source: SpecSource) -> Result<(String, bool)> {
             "check [reaction] and the runs",
         )
     })?;
-    let f = &prior.settings;
-    let mut out = String::new();
-    let _ = writeln!(out, "Clock tuning: {}", spec.title);
-    let _ = writeln!(out, "Spec: {}", spec.source.name);
-    let _ = writeln!(
-        out,
-        "Best single timing concentration: {} {} (now {}); the conversion limit allows up to {}.",
-        spec.timing.species,
-        units::concentration(t.concentration),
-        units::concentration(spec.timing.concentration),
-        units::concentration(t.limit)
-    );
-    let _ = writeln!(
-        out,
-        "Smallest margin to the {:.0} s to {:.0} s window across {:.1} to {:.1} °C: x{:.2} {}.",
-        f.window.0,
-        f.window.1,
-        f.temperature - f.band - 273.15,
-        f.temperature + f.band - 273.15,
-        t.margin.exp(),
-        if t.margin >= 0.0 {
-            "(inside)"
-        } else {
-            "(outside: see below)"
-        }
-    );
-    let _ = writeln!(
-        out,
-        "\n{:<24} {:>12} {:>12} {:>12}",
-        "run", "warm (s)", "planned (s)", "cool (s)"
-    );
-    for r in &t.runs {
-        let _ = writeln!(
-            out,
-            "{:<24} {:>12.1} {:>12.1} {:>12.1}",
-            r.name, r.fast, r.at, r.slow
-        );
-    }
-    for a in &t.advice {
-        let _ = writeln!(out, "\n{a}");
-    }
-    if t.margin >= 0.0 {
-        let _ = writeln!(
-            out,
-            "\nSet [timing] concentration = \"{}\", then run clockprep plan to check that the timing stock volume is deliverable. Predicted times are estimates from a prior, not guarantees.",
-            units::concentration(t.concentration)
-        );
-    } else {
-        let _ = writeln!(
-            out,
-            "\nNo timing concentration fits these runs as they stand: change the runs as advised, then run clockprep tune again. Predicted times are estimates from a prior, not guarantees."
-        );
-    }
-    Ok((out, t.margin >= 0.0))
+    Ok(report::TuneSheet::build(&spec, prior, &t))
 }

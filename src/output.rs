@@ -1,9 +1,9 @@
-//! Where the bytes go: stdout, or a file written atomically (temp file + rename) that never
-//! replaces an input and keeps an existing file unless forced.
+//! Where the bytes go: stdout, or a file written atomically (a temporary file persisted
+//! without clobbering) that never replaces an input and keeps an existing file unless forced.
 
 use crate::error::{Error, Result};
 use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// Refuse an output that is one of the command's inputs (the spec, a times file), compared
 /// by canonical path, so `./spec.toml`, `dir/../spec.toml` and a symlink to it all count.
@@ -22,8 +22,40 @@ pub fn check_not_input(path: &Path, inputs: &[&Path]) -> Result<()> {
     Ok(())
 }
 
-/// Write `bytes` to `path` atomically. `inputs` (the spec, a times file) are never
-/// overwritten, whatever the flags.
+/// Where a command's bytes go: standard output, or a file that may replace an existing one
+/// only when forced. Every command writes through [`Target::guard`] and [`Target::write`].
+#[derive(Debug, Clone, Default)]
+pub struct Target {
+    pub path: Option<PathBuf>,
+    pub force: bool,
+}
+
+impl Target {
+    /// Refuse, before any work, an output that is an input or exists without `force`.
+    pub fn guard(&self, inputs: &[&Path]) -> Result<()> {
+        let Some(path) = &self.path else {
+            return Ok(());
+        };
+        check_not_input(path, inputs)?;
+        if path.exists() && !self.force {
+            return Err(Error::OutputExists { path: path.clone() });
+        }
+        Ok(())
+    }
+
+    /// Write `bytes` where the target says, after the guard.
+    pub fn write(&self, bytes: &[u8], inputs: &[&Path]) -> Result<()> {
+        match &self.path {
+            Some(path) => write_file(path, bytes, self.force, inputs),
+            None => write_stdout(bytes),
+        }
+    }
+}
+
+/// Write `bytes` to `path` atomically: a temporary file in the same directory, synced, then
+/// persisted over the path (replacing it only when `force`; without it the persist itself
+/// refuses an existing file, so a file made meanwhile is never clobbered). `inputs` (the
+/// spec, a times file) are never overwritten, whatever the flags.
 pub fn write_file(path: &Path, bytes: &[u8], force: bool, inputs: &[&Path]) -> Result<()> {
     check_not_input(path, inputs)?;
     if path.exists() && !force {
@@ -35,26 +67,25 @@ pub fn write_file(path: &Path, bytes: &[u8], force: bool, inputs: &[&Path]) -> R
         Some(p) if !p.as_os_str().is_empty() => p,
         _ => Path::new("."),
     };
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
     let io = |cause| Error::WriteOutput {
         path: path.to_path_buf(),
         cause,
     };
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(io(e));
+    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(io)?;
+    tmp.write_all(bytes).map_err(io)?;
+    tmp.as_file().sync_all().map_err(io)?;
+    let persisted = if force {
+        tmp.persist(path)
+    } else {
+        tmp.persist_noclobber(path)
+    };
+    match persisted {
+        Ok(_) => Ok(()),
+        Err(e) if e.error.kind() == std::io::ErrorKind::AlreadyExists => Err(Error::OutputExists {
+            path: path.to_path_buf(),
+        }),
+        Err(e) => Err(io(e.error)),
     }
-    Ok(())
 }
 
 /// Write `bytes` to standard output. A closed pipe (`| head`) is not an error; any other

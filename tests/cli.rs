@@ -578,8 +578,8 @@ fn fit_writes_a_prior_that_loads_again() {
         .stdout(predicate::str::contains("fit to 10 trials"));
     // Fixing the orders fits k alone; "prior" fixes them at the spec's values.
     for (orders, expect) in [
-        ("1,1,2", "order in H+: 2 (fixed)"),
-        ("prior", "order in BrO3-: 1 (fixed)"),
+        ("1,1,2", "Order in H+: 2 (fixed)"),
+        ("prior", "Order in BrO3-: 1 (fixed)"),
     ] {
         clockprep()
             .args([

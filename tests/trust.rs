@@ -380,7 +380,11 @@ fn fit_residuals_of_millisecond_times_are_shown_in_ms() {
         })
         .collect();
     let o = fit(&csv, &[]);
-    assert!(o.stdout.contains("measured ms, fitted ms"), "{}", o.stdout);
+    assert!(
+        o.stdout.contains("measured (ms)") && o.stdout.contains("fitted (ms)"),
+        "{}",
+        o.stdout
+    );
     assert!(o.stdout.contains(" 131.7 "), "{}", o.stdout);
 }
 

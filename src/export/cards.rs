@@ -7,7 +7,7 @@
 //! carries the cautions, the pour order, the predicted time with its band (marked as a
 //! forecast), and boxes to record measured times and temperatures.
 
-use super::text::secs;
+use crate::report::words::secs;
 use crate::report::{PlanReport, RunReport};
 use maud::{html, Markup, PreEscaped, DOCTYPE};
 
@@ -254,7 +254,7 @@ fn station_card(
 
 /// The bench cards as one printable HTML document.
 pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
-    let dec = super::ml_decimals(report);
+    let dec = crate::report::words::ml_decimals(report);
     let numbered: Vec<(usize, &RunReport)> = report
         .runs
         .iter()

@@ -6,14 +6,8 @@
 //! Hand-written because it is small: the plotting crates either need system fonts for text
 //! layout or bring far more than one chart needs. Text goes through maud, which escapes it.
 
-use crate::report::ForecastReport;
+pub use crate::report::page::ChartRow as Row;
 use maud::{html, Markup, PreEscaped};
-
-/// One row of the chart.
-pub struct Row<'a> {
-    pub name: &'a str,
-    pub forecast: &'a ForecastReport,
-}
 
 const WIDTH: f64 = 720.0;
 const LEFT: f64 = 170.0;
@@ -186,6 +180,7 @@ pub fn inline(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> Pre
 mod tests {
     use super::*;
     use crate::flag::Flag;
+    use crate::report::ForecastReport;
 
     fn forecast(t: f64, flagged: bool) -> ForecastReport {
         ForecastReport {
@@ -219,12 +214,12 @@ mod tests {
         let (a, b) = (forecast(40.0, false), forecast(8.0, true));
         let rows = [
             Row {
-                name: "<script>alert(1)</script>",
-                forecast: &a,
+                name: "<script>alert(1)</script>".into(),
+                forecast: a.clone(),
             },
             Row {
-                name: "fast",
-                forecast: &b,
+                name: "fast".into(),
+                forecast: b.clone(),
             },
         ];
         let s = svg("demo & test", &rows, (15.0, 600.0), 3.0);
@@ -246,8 +241,8 @@ mod tests {
         let s = svg(
             "t",
             &[Row {
-                name: "r",
-                forecast: &a,
+                name: "r".into(),
+                forecast: a.clone(),
             }],
             (20.0, 120.0),
             3.0,

@@ -2,7 +2,7 @@ use super::Exporter;
 use crate::report::{ForecastSheet, PlanReport, StockSheet};
 use serde::Serialize;
 
-fn pretty(value: &impl Serialize) -> Vec<u8> {
+pub(crate) fn pretty(value: &impl Serialize) -> Vec<u8> {
     let mut out = serde_json::to_vec_pretty(value).expect("a report always serialises");
     out.push(b'\n');
     out

@@ -1,5 +1,7 @@
-//! Exporters: pure functions from a [`PlanReport`] to bytes, one small type per format behind
-//! one trait. The CLI decides where the bytes go.
+//! Exporters: pure functions from a report to bytes. Text, Markdown and HTML are backends over
+//! the report's page ([`crate::report::page`]); CSV and JSON are typed serializers of the
+//! report itself; TOML is the fragment `fit`, `design` and `tune` hand back to paste into a
+//! spec. The CLI decides where the bytes go.
 
 pub mod cards;
 pub mod chart;
@@ -9,16 +11,15 @@ mod json;
 mod markdown;
 pub mod pdf;
 mod text;
+mod toml;
 
-use crate::report::{ForecastSheet, PlanReport, StockSheet};
+use crate::report::page::Page;
+use crate::report::{DesignSheet, FitSheet, ForecastSheet, PlanReport, StockSheet, TuneSheet};
 
 pub use self::csv::Csv;
-pub use self::html::Html;
 pub use self::json::Json;
-pub use self::markdown::Markdown;
-pub use self::text::Text;
 
-/// Turns a report into the bytes of one output format.
+/// Turns a sheet into the bytes of one tabular format.
 pub trait Exporter {
     /// The mixing sheet of `clockprep plan`.
     fn plan(&self, report: &PlanReport) -> Vec<u8>;
@@ -28,7 +29,7 @@ pub trait Exporter {
     fn stocks(&self, sheet: &StockSheet) -> Vec<u8>;
 }
 
-/// The output formats of `clockprep plan`.
+/// The output formats of the sheets of `plan`, `forecast` and `stocks`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Format {
     Text,
@@ -38,70 +39,95 @@ pub enum Format {
     Html,
 }
 
-impl Format {
-    pub fn exporter(self) -> &'static dyn Exporter {
-        match self {
-            Format::Text => &Text,
-            Format::Csv => &Csv,
-            Format::Json => &Json,
-            Format::Markdown => &Markdown,
-            Format::Html => &Html,
-        }
+/// The output formats of `fit`, `design` and `tune`: the page, JSON, or the TOML fragment to
+/// paste into the spec.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SummaryFormat {
+    Text,
+    Json,
+    Markdown,
+    Html,
+    Toml,
+}
+
+/// A page in one of the page formats.
+fn render(page: &Page, format: Format) -> Option<Vec<u8>> {
+    match format {
+        Format::Text => Some(text::render(page)),
+        Format::Markdown => Some(markdown::render(page)),
+        Format::Html => Some(html::render(page)),
+        Format::Csv | Format::Json => None,
     }
 }
 
 /// Export a plan report in `format`.
 pub fn export(report: &PlanReport, format: Format) -> Vec<u8> {
-    format.exporter().plan(report)
+    match format {
+        Format::Csv => Csv.plan(report),
+        Format::Json => Json.plan(report),
+        _ => render(&report.page(), format).unwrap_or_default(),
+    }
 }
 
 /// Export a stock preparation sheet in `format`.
 pub fn export_stocks(sheet: &StockSheet, format: Format) -> Vec<u8> {
-    format.exporter().stocks(sheet)
+    match format {
+        Format::Csv => Csv.stocks(sheet),
+        Format::Json => Json.stocks(sheet),
+        _ => render(&sheet.page(), format).unwrap_or_default(),
+    }
 }
 
 /// Export a forecast sheet in `format`.
 pub fn export_forecast(sheet: &ForecastSheet, format: Format) -> Vec<u8> {
-    format.exporter().forecast(sheet)
+    match format {
+        Format::Csv => Csv.forecast(sheet),
+        Format::Json => Json.forecast(sheet),
+        _ => render(&sheet.page(), format).unwrap_or_default(),
+    }
 }
 
-/// A number with `n` significant figures, without exponent for lab-sized values.
-pub(crate) fn sig(v: f64, n: i32) -> String {
-    if v == 0.0 {
-        return format!("{:.*}", (n - 1).max(0) as usize, 0.0);
+fn summary(
+    page: Page,
+    json: Vec<u8>,
+    toml: impl FnOnce() -> String,
+    format: SummaryFormat,
+) -> Vec<u8> {
+    match format {
+        SummaryFormat::Text => text::render(&page),
+        SummaryFormat::Markdown => markdown::render(&page),
+        SummaryFormat::Html => html::render(&page),
+        SummaryFormat::Json => json,
+        SummaryFormat::Toml => toml().into_bytes(),
     }
-    crate::units::sig(v, n)
 }
 
-/// Decimal places that show every volume of the plan exactly (at least 2, at most 3).
-pub(crate) fn ml_decimals(report: &PlanReport) -> usize {
-    let all = report
-        .runs
-        .iter()
-        .flat_map(|r| r.volumes.iter().map(|v| v.ml));
-    let mut d = 2;
-    for v in all {
-        while d < 3 && ((v * 10f64.powi(d as i32)).round() - v * 10f64.powi(d as i32)).abs() > 1e-6
-        {
-            d += 1;
-        }
-    }
-    d
+/// Export the result of `clockprep fit`.
+pub fn export_fit(sheet: &FitSheet, format: SummaryFormat) -> Vec<u8> {
+    summary(
+        sheet.page(),
+        json::pretty(sheet),
+        || toml::fit(sheet),
+        format,
+    )
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
+/// Export the result of `clockprep design`.
+pub fn export_design(sheet: &DesignSheet, format: SummaryFormat) -> Vec<u8> {
+    summary(
+        sheet.page(),
+        json::pretty(sheet),
+        || toml::design(sheet),
+        format,
+    )
+}
 
-    #[test]
-    fn significant_figures() {
-        assert_eq!(sig(2.5, 3), "2.50");
-        assert_eq!(sig(150.0, 3), "150");
-        assert_eq!(sig(0.0123, 3), "0.0123");
-        assert_eq!(sig(0.0, 3), "0.00");
-        // Regression: a huge value printed as a 300-digit number.
-        assert_eq!(sig(1.5e300, 3), "1.50e300");
-        assert_eq!(sig(-0.0001, 1), "-0.0001");
-        assert_eq!(sig(-1e-12, 2), "-1.0e-12");
-    }
+/// Export the result of `clockprep tune`.
+pub fn export_tune(sheet: &TuneSheet, format: SummaryFormat) -> Vec<u8> {
+    summary(
+        sheet.page(),
+        json::pretty(sheet),
+        || toml::tune(sheet),
+        format,
+    )
 }

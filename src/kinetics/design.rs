@@ -296,65 +296,6 @@ pub fn assess(
     }
 }
 
-/// The designed runs as `[[run]]` TOML, with the expected precision as comments.
-pub fn toml_runs(spec: &Spec, d: &Design, report: &DesignReport) -> String {
-    use std::fmt::Write;
-    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
-    let mut out = String::new();
-    let scheme = match d.scheme {
-        Scheme::OneAtATime => "one-at-a-time",
-        Scheme::Factorial => "factorial",
-        Scheme::Levels => "levels",
-    };
-    let _ = writeln!(
-        out,
-        "# clockprep design: {} runs, {scheme}, from {}",
-        report.runs.len(),
-        spec.source.name
-    );
-    let _ = writeln!(
-        out,
-        "# expected standard errors with {} replicate(s) per station (all {} stations pooled):",
-        spec.replicates, spec.stations
-    );
-    for p in &report.precision {
-        let what = if p.name.starts_with("ln k") {
-            p.name.clone()
-        } else {
-            format!("order in {}", p.name)
-        };
-        let _ = writeln!(
-            out,
-            "#   {what}: ±{:.3} per station (±{:.3} pooled)",
-            p.station, p.class
-        );
-    }
-    let _ = writeln!(
-        out,
-        "# per-trial error: timing {} %, temperature scatter {} °C, glassware and stocks per run",
-        trim(d.timing_error * 100.0),
-        trim(d.temperature_spread)
-    );
-    for w in &report.warnings {
-        let _ = writeln!(out, "# WARNING: {w}");
-    }
-    out.push('\n');
-    for ((r, s), t) in report.runs.iter().zip(&report.sigma).zip(&report.times) {
-        let time = t
-            .map(|t| format!(", predicted {t:.0} s"))
-            .unwrap_or_default();
-        let _ = writeln!(out, "[[run]]    # σ(ln t) {:.3}{time}", s);
-        let _ = writeln!(out, "name = {}", q(&r.name));
-        let targets: Vec<String> = r
-            .targets
-            .iter()
-            .map(|(sp, c)| format!("{} = {}", q(sp), q(&crate::units::concentration(*c))))
-            .collect();
-        let _ = writeln!(out, "targets = {{ {} }}\n", targets.join(", "));
-    }
-    out
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -1,6 +1,17 @@
 //! The plan as data: everything a sheet shows, with units in every field name, built once from
 //! the stages before it. Exporters only format this; they compute nothing.
 
+mod design;
+mod fit;
+pub mod page;
+mod pages;
+mod tune;
+pub mod words;
+
+pub use design::{DesignSheet, DesignedRunReport, PrecisionReport};
+pub use fit::{FitOrder, FitResidual, FitSheet, Interval};
+pub use tune::{TuneSheet, TunedRun};
+
 use crate::flag::Flag;
 use crate::kinetics::forecast::{Forecast, RunForecast};
 use crate::lab::portions::{Mixing, Portion};
@@ -840,13 +851,13 @@ impl RunReport {
 
 impl PlanReport {
     /// The runs with a forecast, as rows of the forecast chart.
-    pub fn chart_rows(&self) -> Vec<crate::export::chart::Row<'_>> {
+    pub fn chart_rows(&self) -> Vec<page::ChartRow> {
         self.runs
             .iter()
             .filter_map(|r| {
-                r.forecast.as_ref().map(|f| crate::export::chart::Row {
-                    name: &r.name,
-                    forecast: f,
+                r.forecast.as_ref().map(|f| page::ChartRow {
+                    name: r.name.clone(),
+                    forecast: f.clone(),
                 })
             })
             .collect()
@@ -855,12 +866,12 @@ impl PlanReport {
 
 impl ForecastSheet {
     /// Every run as a row of the forecast chart.
-    pub fn chart_rows(&self) -> Vec<crate::export::chart::Row<'_>> {
+    pub fn chart_rows(&self) -> Vec<page::ChartRow> {
         self.runs
             .iter()
-            .map(|r| crate::export::chart::Row {
-                name: &r.name,
-                forecast: &r.forecast,
+            .map(|r| page::ChartRow {
+                name: r.name.clone(),
+                forecast: r.forecast.clone(),
             })
             .collect()
     }

@@ -434,7 +434,7 @@ impl Checker<'_> {
         known: &Known,
     ) -> Result<Option<usize>> {
         let holders: Vec<usize> = (0..stocks.len())
-            .filter(|&i| stocks[i].in_runs && stocks[i].concentration_of(&timing_species) > 0.0)
+            .filter(|&i| stocks[i].in_runs && stocks[i].concentration_of(timing_species) > 0.0)
             .collect();
         Ok(match holders.as_slice() {
             [] if !known.check => None,

@@ -1,0 +1,474 @@
+//! The mixing sheet, the forecast sheet and the stock sheet as pages.
+
+use super::page::{headers, Align, Block, Chart, Item, Page, Section, Table};
+use super::words::{forecast_lines, ml_decimals, mm, pour, secs, sig, NOT_A_GUARANTEE, PRIOR_NOTE};
+use super::{
+    ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport, StockSheet,
+};
+
+/// The cautions box, last on every sheet.
+fn cautions(lines: &[String]) -> Section {
+    let mut s = Section::untitled();
+    s.push(Block::Cautions(lines.to_vec()));
+    s
+}
+
+/// The prior rate law with every value's source.
+fn prior_section(r: &ReactionReport, s: &ForecastSettingsReport) -> Section {
+    let mut out = Section::new("Rate law prior");
+    out.para(format!(
+        "{}: rate species {}, timing species {} via {}; nu = {} mol {} per mol {}.",
+        r.name,
+        r.rate_species,
+        r.timing_species,
+        r.intermediate,
+        sig(r.nu, 3),
+        r.timing_species,
+        r.rate_species
+    ));
+    let mut items = Vec::new();
+    for t in &r.terms {
+        let orders: Vec<String> = t
+            .orders
+            .0
+            .iter()
+            .map(|(sp, n)| format!("[{sp}]^{n}"))
+            .collect();
+        let ea = t
+            .activation_energy
+            .map(|e| format!(", Ea {e} kJ/mol"))
+            .unwrap_or_else(|| ", no activation energy (no temperature scaling)".into());
+        items.push(Item {
+            text: format!(
+                "k = {} {} at {:.1} °C{ea}; rate term k {}",
+                t.k,
+                t.k_unit,
+                t.at_c,
+                orders.join(" ")
+            ),
+            details: t.source.iter().map(|s| format!("source: {s}")).collect(),
+        });
+    }
+    if let Some(v) = r.visible_threshold {
+        items.push(Item {
+            text: format!("visible at {} µM {}", sig(v * 1e6, 3), r.intermediate),
+            details: r
+                .visible_source
+                .iter()
+                .map(|s| format!("source: {s}"))
+                .collect(),
+        });
+    }
+    out.push(Block::List(items));
+    let period = s
+        .lab_period_s
+        .map(|p| format!("; lab period {}", secs(p)))
+        .unwrap_or_default();
+    out.para(format!(
+        "Planned {:.1} °C ± {:.1} °C; timing window {} to {}; handling {} per trial{period}.",
+        s.temperature_c,
+        s.band_c,
+        secs(s.window_s[0]),
+        secs(s.window_s[1]),
+        secs(s.handling_per_run_s)
+    ));
+    out.para(PRIOR_NOTE);
+    out
+}
+
+fn run_section(r: &RunReport, n: usize, of: usize, dec: usize) -> Section {
+    let mut s = Section::new(format!("Run {n} of {of}: {}", r.name));
+    if let Some(first) = &r.same_as {
+        s.para(format!("Same targets and recipe as run '{first}'."));
+    }
+    if let Some(note) = &r.note {
+        s.para(format!("Note: {note}"));
+    }
+    let p = &r.portions;
+    for (label, items, total) in [("A", &p.a, p.a_ml), ("B", &p.b, p.b_ml)] {
+        let mut rows: Vec<Vec<String>> = items
+            .iter()
+            .map(|i| {
+                vec![
+                    i.stock.clone(),
+                    format!("{:.*}", dec, i.ml),
+                    i.device.clone(),
+                ]
+            })
+            .collect();
+        rows.push(vec![
+            format!("total in vessel {label}"),
+            format!("{:.*}", dec, total),
+            String::new(),
+        ]);
+        s.push(Block::Subheading(format!("Vessel {label}")));
+        s.push(Block::Table(
+            Table::with_align(
+                headers(&["add", "volume (mL)", "deliver with"]),
+                vec![Align::Left, Align::Right, Align::Left],
+                rows,
+            )
+            .nested(),
+        ));
+    }
+    s.push(Block::Instruction(pour(&p.pour)));
+    let rows: Vec<Vec<String>> = r
+        .concentrations
+        .0
+        .iter()
+        .map(|(sp, c)| {
+            vec![
+                sp.clone(),
+                r.targets.get(sp).map(mm).unwrap_or_else(|| "-".into()),
+                mm(*c),
+                r.deviation
+                    .get(sp)
+                    .map(|d| format!("{:+.2}", d * 100.0))
+                    .unwrap_or_else(|| "-".into()),
+                r.uncertainty
+                    .get(sp)
+                    .map(|u| format!("{:.2}", u * 100.0))
+                    .unwrap_or_else(|| "-".into()),
+            ]
+        })
+        .collect();
+    s.push(Block::Table(
+        Table::numeric(
+            headers(&[
+                "species",
+                "target (mM)",
+                "final (mM)",
+                "deviation (%)",
+                "u (%)",
+            ]),
+            rows,
+        )
+        .nested(),
+    ));
+    s.detail("u: standard uncertainty (k = 1) from glassware tolerances and stock concentrations.");
+    match (
+        r.targets.get("ionic strength"),
+        r.deviation.get("ionic strength"),
+    ) {
+        (Some(t), Some(d)) => s.detail(format!(
+            "ionic strength: {} mM (held at {} mM, {:+.2} %)",
+            mm(r.ionic_strength),
+            mm(t),
+            d * 100.0
+        )),
+        _ => s.detail(format!("ionic strength: {} mM", mm(r.ionic_strength))),
+    };
+    if let Some(f) = &r.forecast {
+        for line in forecast_lines(f) {
+            s.detail(line);
+        }
+        s.push(Block::Flags {
+            flags: f.warnings.clone(),
+            nested: true,
+        });
+    }
+    s.push(Block::Flags {
+        flags: r.flags.clone(),
+        nested: true,
+    });
+    s
+}
+
+impl PlanReport {
+    /// The mixing sheet.
+    pub fn page(&self) -> Page {
+        let dec = ml_decimals(self);
+        let title = format!("Mixing sheet: {}", self.title);
+        let mut head = Section::new(title.clone());
+        head.para(format!("Spec: {}", self.spec));
+        let mut line = format!(
+            "Each run: {:.*} mL in two vessels | {} station(s) x {} replicate(s) | overage {} % | tolerance {} %",
+            dec, self.total_volume_ml, self.stations, self.replicates, sig(self.overage_pct, 3), sig(self.tolerance_pct, 2)
+        );
+        if let Some(t) = self.temperature_c {
+            line.push_str(&format!(" | planned {t:.1} °C"));
+        }
+        head.para(line);
+        let t = &self.timing;
+        head.para(format!(
+            "Timing reagent: {} {} mM in every run = {:.*} mL of '{}' ({})",
+            t.species,
+            mm(t.concentration),
+            dec,
+            t.ml,
+            t.stock,
+            t.device
+        ));
+        if let Some(i) = &self.ionic_strength {
+            head.para(format!(
+                "Ionic strength held at {} mM with '{}'",
+                mm(i.held),
+                i.using
+            ));
+        }
+        if self.flagged {
+            let n = self.runs_needing_a_look();
+            let what = match (n, self.warnings.is_empty()) {
+                (0, _) => "the plan needs a look".to_string(),
+                (1, true) => "1 run needs a look".to_string(),
+                (n, true) => format!("{n} runs need a look"),
+                (1, false) => "1 run and the plan need a look".to_string(),
+                (n, false) => format!("{n} runs and the plan need a look"),
+            };
+            head.para(format!("FLAGGED: {what}; see FLAG lines below."));
+        }
+        let mut sections = vec![head];
+        if let Some(s) = &self.forecast_settings {
+            let mut chart = Section::untitled();
+            chart.push(Block::Chart(Chart {
+                title: self.title.clone(),
+                rows: self.chart_rows(),
+                window: (s.window_s[0], s.window_s[1]),
+                band: s.band_c,
+            }));
+            sections.push(chart);
+        }
+
+        let mut volumes = Section::new("Volumes per run (mL)");
+        let stocks = self.volume_columns();
+        let mut cols = vec!["run".to_string()];
+        cols.extend(stocks.iter().map(|s| s.to_string()));
+        let mut rows: Vec<Vec<String>> = self
+            .runs
+            .iter()
+            .map(|r| {
+                let mut row = vec![r.name.clone()];
+                row.extend(stocks.iter().map(|s| format!("{:.*}", dec, r.volume_of(s))));
+                row
+            })
+            .collect();
+        if self.reaction.is_some() {
+            cols.push("predicted (s)".into());
+            for (row, r) in rows.iter_mut().zip(&self.runs) {
+                row.push(
+                    r.forecast
+                        .as_ref()
+                        .and_then(|f| f.time_s)
+                        .map_or("-".into(), |t| format!("{t:.1}")),
+                );
+            }
+        }
+        volumes.push(Block::Table(Table::numeric(cols, rows)));
+        sections.push(volumes);
+
+        let of = self.runs.len();
+        for (i, r) in self.runs.iter().enumerate() {
+            sections.push(run_section(r, i + 1, of, dec));
+        }
+        sections.push(self.totals_section());
+        if let (Some(r), Some(s)) = (&self.reaction, &self.forecast_settings) {
+            sections.push(prior_section(r, s));
+        }
+        sections.push(cautions(&self.cautions));
+        Page { title, sections }
+    }
+
+    fn totals_section(&self) -> Section {
+        let mut s = Section::new("Stock to prepare");
+        s.para(format!(
+            "All runs x {} replicate(s) x {} station(s), plus {} % overage, rounded up to a volumetric flask.",
+            self.replicates, self.stations, sig(self.overage_pct, 3)
+        ));
+        let mut rows: Vec<Vec<String>> = self
+            .stock_totals
+            .iter()
+            .map(|t| {
+                vec![
+                    t.stock.clone(),
+                    format!("{:.1}", t.one_set_ml),
+                    format!("{:.1}", t.per_station_ml),
+                    format!("{:.1}", t.used_ml),
+                    format!("{:.1}", t.ml),
+                    format!("{} x {} mL", t.flask_count, t.flask_ml),
+                ]
+            })
+            .collect();
+        rows.push(vec![
+            "water (make-up)".into(),
+            String::new(),
+            String::new(),
+            format!("{:.1}", self.water_total_ml),
+            String::new(),
+            String::new(),
+        ]);
+        let mut align = vec![Align::Right; 6];
+        align[0] = Align::Left;
+        align[5] = Align::Left;
+        s.push(Block::Table(Table::with_align(
+            headers(&[
+                "stock",
+                "one set (mL)",
+                "per station (mL)",
+                "whole lab (mL)",
+                "prepare (mL)",
+                "flask",
+            ]),
+            align,
+            rows,
+        )));
+        s
+    }
+}
+
+impl ForecastSheet {
+    /// The forecast sheet.
+    pub fn page(&self) -> Page {
+        let title = format!("Clock-time forecast: {}", self.title);
+        let mut head = Section::new(title.clone());
+        head.para(format!("Spec: {}", self.spec));
+        head.para(format!(
+            "Timing reagent: {} {} mM in every run. {NOT_A_GUARANTEE}",
+            self.timing.species,
+            mm(self.timing.concentration)
+        ));
+        if self.flagged {
+            head.para("FLAGGED: see FLAG lines below.");
+        }
+        head.push(Block::Flags {
+            flags: self.warnings.clone(),
+            nested: false,
+        });
+        let mut chart = Section::untitled();
+        chart.push(Block::Chart(Chart {
+            title: self.title.clone(),
+            rows: self.chart_rows(),
+            window: (
+                self.forecast_settings.window_s[0],
+                self.forecast_settings.window_s[1],
+            ),
+            band: self.forecast_settings.band_c,
+        }));
+        let mut cols: Vec<String> = vec!["run".into()];
+        cols.extend(
+            self.runs[0]
+                .concentrations
+                .0
+                .iter()
+                .map(|(s, _)| format!("{s} (mM)")),
+        );
+        cols.extend(
+            [
+                "time (s)",
+                "band (s)",
+                "initial-rate est. (s)",
+                "rate (M/s)",
+                "max conversion",
+            ]
+            .map(String::from),
+        );
+        let rows: Vec<Vec<String>> = self
+            .runs
+            .iter()
+            .map(|r| {
+                let f = &r.forecast;
+                let mut row = vec![r.name.clone()];
+                row.extend(r.concentrations.0.iter().map(|(_, c)| mm(*c)));
+                row.push(f.time_s.map_or("-".into(), |t| format!("{t:.1}")));
+                row.push(
+                    f.band_s
+                        .map_or("-".into(), |[a, b]| format!("{a:.1}-{b:.1}")),
+                );
+                row.push(f.initial_rate_s.map_or("-".into(), |t| format!("{t:.1}")));
+                row.push(f.rate.map_or("-".into(), |v| format!("{v:.3e}")));
+                row.push(match (f.max_conversion, &f.max_conversion_species) {
+                    (Some(c), Some(s)) => format!("{:.1} % {s}", c * 100.0),
+                    _ => "-".into(),
+                });
+                row
+            })
+            .collect();
+        let mut table = Section::untitled();
+        table.push(Block::Table(Table::numeric(cols, rows)));
+        let mut sections = vec![head, chart, table];
+        let mut warned = Section::untitled();
+        for r in self.runs.iter().filter(|r| !r.forecast.warnings.is_empty()) {
+            warned.para(format!("{}:", r.name));
+            warned.push(Block::Flags {
+                flags: r.forecast.warnings.clone(),
+                nested: true,
+            });
+        }
+        if !warned.blocks.is_empty() {
+            sections.push(warned);
+        }
+        sections.push(prior_section(&self.reaction, &self.forecast_settings));
+        sections.push(cautions(&self.cautions));
+        Page { title, sections }
+    }
+}
+
+impl StockSheet {
+    /// The stock preparation sheet.
+    pub fn page(&self) -> Page {
+        let title = format!("Stock preparation: {}", self.title);
+        let mut head = Section::new(title.clone());
+        head.para(format!("Spec: {}", self.spec));
+        head.para(format!(
+            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, in volumetric flasks.",
+            self.stations, self.replicates, sig(self.overage_pct, 3)
+        ));
+        let rows: Vec<Vec<String>> = self
+            .stocks
+            .iter()
+            .map(|s| {
+                let amount = match (s.recipe.grams, s.recipe.ml) {
+                    (Some(g), _) => format!("{g:.4} g"),
+                    (None, Some(v)) => format!("{v:.2} mL"),
+                    _ => "-".into(),
+                };
+                vec![
+                    s.name.clone(),
+                    format!("{:.1}", s.need_ml),
+                    format!("{} x {} mL", s.flask_count, s.flask_ml),
+                    s.recipe.kind.to_string(),
+                    amount,
+                ]
+            })
+            .collect();
+        let mut table = Section::untitled();
+        table.push(Block::Table(Table::with_align(
+            headers(&["stock", "need (mL)", "flask", "recipe", "per flask"]),
+            vec![
+                Align::Left,
+                Align::Right,
+                Align::Left,
+                Align::Left,
+                Align::Right,
+            ],
+            rows,
+        )));
+        let mut sections = vec![head, table];
+        for s in &self.stocks {
+            let mut sec = Section::new(s.name.clone());
+            sec.para(s.recipe.text.clone());
+            if s.drawn_ml > 0.0 {
+                sec.para(format!(
+                    "Includes {:.1} mL drawn to make other stocks.",
+                    s.drawn_ml
+                ));
+            }
+            if let Some(st) = &s.stability {
+                sec.para(format!("Stability: {st}."));
+            }
+            if let Some(h) = &s.hazards {
+                let codes = if s.hazard_codes.is_empty() {
+                    String::new()
+                } else {
+                    format!(" ({})", s.hazard_codes.join(", "))
+                };
+                sec.para(format!("Hazards{codes}: {h}."));
+            }
+            if let Some(src) = &s.data_source {
+                sec.para(format!("Data: {src}; check the supplier's SDS."));
+            }
+            sections.push(sec);
+        }
+        sections.push(cautions(&self.cautions));
+        Page { title, sections }
+    }
+}
