@@ -3,7 +3,10 @@
 
 use clockprep::error::SpecSource;
 use clockprep::export::cards::{cards, Paper, Per};
-use clockprep::export::{export, export_forecast, export_stocks, Format};
+use clockprep::export::{
+    export, export_design, export_fit, export_forecast, export_stocks, export_tune, Format,
+    SummaryFormat,
+};
 
 const FORMATS: [(Format, &str); 5] = [
     (Format::Text, "txt"),
@@ -70,4 +73,44 @@ fn bromate_cards_and_chart() {
     }
     let (svg, _) = clockprep::chart(source("plans/maple-hollow-bromate.toml")).unwrap();
     insta::assert_snapshot!("bromate_chart_svg", svg);
+}
+
+const SUMMARY_FORMATS: [(SummaryFormat, &str); 5] = [
+    (SummaryFormat::Text, "txt"),
+    (SummaryFormat::Json, "json"),
+    (SummaryFormat::Markdown, "md"),
+    (SummaryFormat::Html, "html"),
+    (SummaryFormat::Toml, "toml"),
+];
+
+#[test]
+fn bromate_pilot_fit() {
+    let sheet = clockprep::fit(
+        source("plans/maple-hollow-bromate.toml"),
+        source("plans/maple-hollow-pilot.csv"),
+        None,
+    )
+    .unwrap();
+    for (format, ext) in SUMMARY_FORMATS {
+        let text = String::from_utf8(export_fit(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("bromate_fit_{ext}"), text);
+    }
+}
+
+#[test]
+fn bromate_design() {
+    let sheet = clockprep::design(source("plans/maple-hollow-bromate.toml")).unwrap();
+    for (format, ext) in SUMMARY_FORMATS {
+        let text = String::from_utf8(export_design(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("bromate_design_{ext}"), text);
+    }
+}
+
+#[test]
+fn peroxide_tune() {
+    let sheet = clockprep::tune(source("plans/willow-creek-peroxide-forecast.toml")).unwrap();
+    for (format, ext) in SUMMARY_FORMATS {
+        let text = String::from_utf8(export_tune(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("peroxide_tune_{ext}"), text);
+    }
 }

@@ -183,7 +183,7 @@ impl DesignSheet {
         toml.push(Block::Verbatim(self.runs_toml.clone()));
         Page {
             title: summary.heading.clone().unwrap_or_default(),
-            sections: vec![summary, runs, toml],
+            sections: vec![summary, runs, toml, super::page::general_cautions()],
         }
     }
 }

@@ -406,7 +406,7 @@ impl FitSheet {
         prior.push(Block::Verbatim(self.reaction_toml.clone()));
         Page {
             title: summary.heading.clone().unwrap_or_default(),
-            sections: vec![summary, prior],
+            sections: vec![summary, prior, super::page::general_cautions()],
         }
     }
 }

@@ -153,3 +153,16 @@ impl Table {
 pub fn headers(list: &[&str]) -> Vec<String> {
     list.iter().map(|s| s.to_string()).collect()
 }
+
+/// The cautions of a sheet that names no reagent amounts (fit, design, tune): the general
+/// lines every sheet carries.
+pub fn general_cautions() -> Section {
+    let mut s = Section::untitled();
+    s.push(Block::Cautions(
+        crate::reference::reagents::GENERAL
+            .iter()
+            .map(|l| l.to_string())
+            .collect(),
+    ));
+    s
+}

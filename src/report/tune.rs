@@ -133,6 +133,7 @@ impl TuneSheet {
         let mut next = Section::untitled();
         next.para(self.next_step());
         sections.push(next);
+        sections.push(super::page::general_cautions());
         Page { title, sections }
     }
 }
