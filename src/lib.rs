@@ -1,13 +1,11 @@
 //! clockprep: plan clock-reaction kinetics labs from one TOML spec.
 //!
-//! The data flow of [`plan`] is one module per stage:
-//! [`spec`] (parse, units, validate) → [`solve`] (the integer LP for deliverable volumes) →
-//! [`mixing`] (the two portions mixed at t = 0) → [`totals`] (stock to prepare) →
-//! [`forecast`] (clock times from the prior rate law, via [`kinetics`]) → [`uncertainty`]
-//! (glassware and stocks) → [`report`] (the plan as data) → [`export`] (text, CSV, JSON,
-//! Markdown, HTML, bench cards). The other commands branch off the same stages: [`recipes`]
-//! (stock sheet), [`chart`](mod@chart), [`fit`](mod@fit), [`design`](mod@design) and
-//! [`tune`](mod@tune).
+//! The data flow is one folder per stage: [`spec`] (TOML → checked model in typed parts) →
+//! [`solve`] (the integer LP for deliverable volumes) → [`kinetics`] (forecast, fit, design,
+//! tune from the prior rate law) → [`lab`] (portions, stock totals, recipes, uncertainty) →
+//! [`report`] (each sheet as data and as a page) → [`export`] (text, Markdown, HTML over the
+//! page; CSV, JSON, TOML; cards, chart, PDF). [`reference`] holds the notation and data every
+//! stage shares. The functions below compose the stages into the commands.
 
 pub mod cli;
 pub mod error;

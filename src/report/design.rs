@@ -39,6 +39,7 @@ pub struct DesignSheet {
     /// Relative timing error of one trial.
     pub timing_error: f64,
     /// Unrecorded trial-to-trial temperature scatter, K.
+    #[serde(rename = "temperature_spread_K")]
     pub temperature_spread_k: f64,
     pub runs: Vec<DesignedRunReport>,
     pub precision: Vec<PrecisionReport>,

@@ -58,9 +58,11 @@ pub struct FitSheet {
     /// k at `k_at_c`, in `k_unit`.
     pub k: Interval,
     pub k_unit: String,
+    #[serde(rename = "k_at_C")]
     pub k_at_c: f64,
     pub orders: Vec<FitOrder>,
     /// kJ/mol; with an interval only when fitted.
+    #[serde(rename = "activation_energy_kJ_per_mol")]
     pub activation_energy_kj_mol: Option<f64>,
     pub activation_energy_interval: Option<Interval>,
     pub activation_energy_fitted: bool,

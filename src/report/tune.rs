@@ -24,17 +24,21 @@ pub struct TuneSheet {
     pub spec: String,
     pub timing_species: String,
     /// The best single timing concentration, mol/L, and the same as the spec writes it.
+    #[serde(rename = "concentration_M")]
     pub concentration_m: f64,
     pub concentration: String,
     /// The spec's timing concentration now, mol/L.
+    #[serde(rename = "current_M")]
     pub current_m: f64,
     /// The largest concentration the conversion limit allows, mol/L.
+    #[serde(rename = "limit_M")]
     pub limit_m: f64,
     /// Smallest factor between a run's time and the window edge (> 1 inside).
     pub margin_factor: f64,
     pub fits: bool,
     pub window_s: [f64; 2],
     /// Warm and cool ends of the band, °C.
+    #[serde(rename = "band_C")]
     pub band_c: [f64; 2],
     pub runs: Vec<TunedRun>,
     /// When nothing fits: what to change, checked by re-running the tuning.
