@@ -479,46 +479,11 @@ pub fn fit(
         ));
     };
     let species: Vec<String> = term.orders.iter().map(|(s, _)| s.clone()).collect();
-    for (s, _) in &options.fixed {
-        if !species.contains(s) {
-            return Err(refuse(
-                spec,
-                &format!("--orders names {s}, which is not in the rate law"),
-                &format!("the rate law's species are {}", species.join(", ")),
-            ));
-        }
-    }
-    let ln_c = |run: usize, sp: &str| ln_conc(initial, run, sp);
-    let free: Vec<usize> = (0..species.len())
-        .filter(|&j| !options.fixed.iter().any(|(s, _)| *s == species[j]))
-        .collect();
-    // An order can only be fitted when its species takes two or more values.
-    for &j in &free {
-        let mut values: Vec<f64> = trials.iter().map(|t| ln_c(t.run, &species[j])).collect();
-        values.sort_by(f64::total_cmp);
-        values.dedup_by(|a, b| (*a - *b).abs() < 1e-9);
-        if values.len() < 2 {
-            return Err(refuse(
-                spec,
-                &format!(
-                    "the timed runs never vary {}, so its order cannot be fitted",
-                    species[j]
-                ),
-                &format!(
-                    "fix it, e.g. --orders {}={}, or time a run that changes {}",
-                    species[j], term.orders[j].1, species[j]
-                ),
-            ));
-        }
-    }
+    let free = free_orders(spec, term, &species, initial, trials, options)?;
     let temps: Vec<f64> = trials
         .iter()
         .map(|t| t.temperature.unwrap_or(settings.temperature))
         .collect();
-    let mut sorted = temps.clone();
-    sorted.sort_by(f64::total_cmp);
-    let span = sorted[sorted.len() - 1] - sorted[0];
-    let mean_t = sorted.iter().sum::<f64>() / sorted.len() as f64;
     let start: Vec<(String, f64)> = term
         .orders
         .iter()
@@ -543,20 +508,124 @@ pub fn fit(
         free: &free,
         prior_ea: term.activation_energy,
     };
-    // The activation energy: fitted only from a wide enough temperature span, and kept only
-    // when the data determine it; else the prior's, with k at the trials' mean temperature.
+    let (solved, ea_fitted, ea_note, t_ref) = solve_with_ea_rule(&problem, term, start)?;
+    check_solved(spec, &solved)?;
+    let ols = &solved.ols;
+    let est = |i: usize| Estimate {
+        value: ols.beta[i],
+        se: ols.se[i],
+        low: ols.beta[i] - ols.t95 * ols.se[i],
+        high: ols.beta[i] + ols.t95 * ols.se[i],
+    };
+    let ln_k = est(0);
+    let k = Estimate {
+        value: ln_k.value.exp(),
+        se: ln_k.value.exp() * ln_k.se,
+        low: ln_k.low.exp(),
+        high: ln_k.high.exp(),
+    };
+    let orders = fitted_orders(&solved, &free, &est);
+    let activation_energy = if ea_fitted {
+        Some(est(1 + free.len()))
+    } else {
+        term.activation_energy.map(|e| Estimate {
+            value: e,
+            se: f64::NAN,
+            low: f64::NAN,
+            high: f64::NAN,
+        })
+    };
+    let residuals = residuals_of(spec, trials, ols);
+    let warnings = warnings_of(&problem, &residuals, &orders);
+    Ok(Fit {
+        k,
+        t_ref,
+        orders,
+        activation_energy,
+        ea_fitted,
+        residuals,
+        ea_note,
+        warnings,
+        trials: trials.len(),
+        dof: ols.dof,
+        s: ols.s,
+        iterations: solved.iterations,
+    })
+}
+
+/// The orders to fit (indices into the rate law's species): those not fixed, each of which must
+/// take two or more values over the timed runs.
+fn free_orders(
+    spec: &Spec,
+    term: &crate::spec::Term,
+    species: &[String],
+    initial: &[Vec<(String, f64)>],
+    trials: &[Trial],
+    options: &Options,
+) -> Result<Vec<usize>> {
+    for (s, _) in &options.fixed {
+        if !species.contains(s) {
+            return Err(refuse(
+                spec,
+                &format!("--orders names {s}, which is not in the rate law"),
+                &format!("the rate law's species are {}", species.join(", ")),
+            ));
+        }
+    }
+    let free: Vec<usize> = (0..species.len())
+        .filter(|&j| !options.fixed.iter().any(|(s, _)| *s == species[j]))
+        .collect();
+    for &j in &free {
+        let mut values: Vec<f64> = trials
+            .iter()
+            .map(|t| ln_conc(initial, t.run, &species[j]))
+            .collect();
+        values.sort_by(f64::total_cmp);
+        values.dedup_by(|a, b| (*a - *b).abs() < 1e-9);
+        if values.len() < 2 {
+            return Err(refuse(
+                spec,
+                &format!(
+                    "the timed runs never vary {}, so its order cannot be fitted",
+                    species[j]
+                ),
+                &format!(
+                    "fix it, e.g. --orders {}={}, or time a run that changes {}",
+                    species[j], term.orders[j].1, species[j]
+                ),
+            ));
+        }
+    }
+    Ok(free)
+}
+
+/// The activation energy rule: fitted only from a wide enough temperature span, and kept only
+/// when the data determine it; else the prior's, with k at the trials' mean temperature.
+/// Returns the fit, whether Ea was fitted, the note saying which rule applied, and the
+/// temperature k refers to.
+fn solve_with_ea_rule(
+    problem: &Problem,
+    term: &crate::spec::Term,
+    start: Vec<(String, f64)>,
+) -> Result<(Solved, bool, String, f64)> {
+    let mut sorted = problem.temps.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let (lo, hi) = (sorted[0], sorted[sorted.len() - 1]);
+    let span = hi - lo;
+    let mean_t = sorted.iter().sum::<f64>() / sorted.len() as f64;
     let c = |t: f64| t - 273.15;
+    let free = problem.free.len();
     let fitted = if span >= EA_MIN_SPAN_K {
         let s = problem.solve(start.clone(), Some(term.t_ref))?;
-        let (value, se) = (s.ols.beta[1 + free.len()], s.ols.se[1 + free.len()]);
+        let (value, se) = (s.ols.beta[1 + free], s.ols.se[1 + free]);
         if value > 0.0 && se / value < EA_MAX_RSE {
             Ok((
                 s,
                 format!(
                     "fitted from trials spanning {:.1} °C ({:.1} to {:.1} °C)",
                     span,
-                    c(sorted[0]),
-                    c(sorted[sorted.len() - 1])
+                    c(lo),
+                    c(hi)
                 ),
             ))
         } else {
@@ -576,17 +645,20 @@ pub fn fit(
             span, EA_MIN_SPAN_K
         ))
     };
-    let (solved, ea_fitted, ea_note) = match fitted {
-        Ok((s, note)) => (s, true, note),
+    Ok(match fitted {
+        Ok((s, note)) => (s, true, note, term.t_ref),
         Err(why) => {
             let note = match term.activation_energy {
                 Some(_) => format!("kept from the prior{why}"),
                 None => format!("none: the prior has none{why}"),
             };
-            (problem.solve(start, None)?, false, note)
+            (problem.solve(start, None)?, false, note, mean_t)
         }
-    };
-    let t_ref = if ea_fitted { term.t_ref } else { mean_t };
+    })
+}
+
+/// A fit needs an error estimate and finite numbers.
+fn check_solved(spec: &Spec, solved: &Solved) -> Result<()> {
     if solved.ols.dof == 0 {
         return Err(refuse(
             spec,
@@ -607,21 +679,13 @@ pub fn fit(
             "check each time against the stopwatch reading; the fit needs times of the same order as the prior's forecast",
         ));
     }
-    let ols = &solved.ols;
-    let est = |i: usize| Estimate {
-        value: ols.beta[i],
-        se: ols.se[i],
-        low: ols.beta[i] - ols.t95 * ols.se[i],
-        high: ols.beta[i] + ols.t95 * ols.se[i],
-    };
-    let ln_k = est(0);
-    let k = Estimate {
-        value: ln_k.value.exp(),
-        se: ln_k.value.exp() * ln_k.se,
-        low: ln_k.low.exp(),
-        high: ln_k.high.exp(),
-    };
-    let order_out: Vec<Order> = solved
+    Ok(())
+}
+
+/// Each order with its interval (a fixed one without), its nearest whole or half value and
+/// whether the interval contains it.
+fn fitted_orders(solved: &Solved, free: &[usize], est: &dyn Fn(usize) -> Estimate) -> Vec<Order> {
+    solved
         .orders
         .iter()
         .enumerate()
@@ -648,18 +712,11 @@ pub fn fit(
                 consistent,
             }
         })
-        .collect();
-    let activation_energy = if ea_fitted {
-        Some(est(1 + free.len()))
-    } else {
-        term.activation_energy.map(|e| Estimate {
-            value: e,
-            se: f64::NAN,
-            low: f64::NAN,
-            high: f64::NAN,
-        })
-    };
-    let residuals: Vec<Residual> = trials
+        .collect()
+}
+
+fn residuals_of(spec: &Spec, trials: &[Trial], ols: &Ols) -> Vec<Residual> {
+    trials
         .iter()
         .enumerate()
         .map(|(i, t)| {
@@ -676,7 +733,13 @@ pub fn fit(
                 outlier: ols.studentized[i].abs() > OUTLIER,
             }
         })
-        .collect();
+        .collect()
+}
+
+/// What to look at before using the fit: outliers, implausible orders, times far from the
+/// prior's forecast.
+fn warnings_of(problem: &Problem, residuals: &[Residual], orders: &[Order]) -> Vec<String> {
+    let spec = problem.spec;
     let mut warnings = Vec::new();
     for r in residuals.iter().filter(|r| r.outlier) {
         warnings.push(format!(
@@ -684,7 +747,7 @@ pub fn fit(
             r.line, r.run, units::sig3(r.time), units::sig3(r.predicted), r.studentized
         ));
     }
-    for o in order_out.iter().filter(|o| !o.fixed) {
+    for o in orders.iter().filter(|o| !o.fixed) {
         let (lo, hi) = PLAUSIBLE_ORDERS;
         if !(lo..=hi).contains(&o.estimate.value) {
             warnings.push(format!(
@@ -693,8 +756,12 @@ pub fn fit(
             ));
         }
     }
-    for (t, &temp) in trials.iter().zip(&temps) {
-        let Ok(kin) = RunKinetics::new(reaction, &initial[t.run], spec.timing.concentration) else {
+    for (t, &temp) in problem.trials.iter().zip(problem.temps) {
+        let Ok(kin) = RunKinetics::new(
+            problem.reaction,
+            &problem.initial[t.run],
+            spec.timing.concentration,
+        ) else {
             continue;
         };
         let prior = kin.at(temp).to_colour();
@@ -714,21 +781,7 @@ pub fn fit(
             ));
         }
     }
-    let iterations = solved.iterations;
-    Ok(Fit {
-        k,
-        t_ref,
-        orders: order_out,
-        activation_energy,
-        ea_fitted,
-        residuals,
-        ea_note,
-        warnings,
-        trials: trials.len(),
-        dof: ols.dof,
-        s: ols.s,
-        iterations,
-    })
+    warnings
 }
 
 /// ln of a run's initial concentration of a species (NaN when the run lacks it).

@@ -250,7 +250,7 @@ impl FitSheet {
             degrees_of_freedom: fit.dof,
             residual_sd_ln_t: fit.s,
             k: interval(&fit.k, 1.0),
-            k_at_c: fit.t_ref - 273.15,
+            k_at_c: super::sig10(fit.t_ref - 273.15),
             orders: fit
                 .orders
                 .iter()

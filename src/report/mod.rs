@@ -314,7 +314,7 @@ fn deviation(d: f64) -> f64 {
 }
 
 /// Ten significant figures: removes float noise, keeps every digit that means anything.
-fn sig10(v: f64) -> f64 {
+pub(crate) fn sig10(v: f64) -> f64 {
     if v == 0.0 {
         return 0.0; // never -0
     }

@@ -61,8 +61,8 @@ impl TuneSheet {
             fits: t.margin >= 0.0,
             window_s: [f.window.0, f.window.1],
             band_c: [
-                f.temperature - f.band - 273.15,
-                f.temperature + f.band - 273.15,
+                super::sig10(f.temperature - f.band - 273.15),
+                super::sig10(f.temperature + f.band - 273.15),
             ],
             runs: t
                 .runs
