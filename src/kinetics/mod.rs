@@ -16,6 +16,7 @@
 pub mod design;
 pub mod fit;
 pub mod forecast;
+pub mod times;
 pub mod tune;
 
 use crate::spec::{Reaction, Term, MAX_TERMS};

@@ -46,10 +46,23 @@ pub struct Mixing {
 
 /// Place stocks and water into the two vessels of every run.
 pub fn split(spec: &Spec, lab: &Lab, solution: &Solution) -> Result<Mixing> {
-    let used = &solution.used_stocks;
-    let groups = &lab.mixing.keep_apart;
+    check_stocks_keep_apart(spec, lab, &solution.used_stocks)?;
+    let vessel_of = assign_vessels(spec, lab, solution)?;
+    let runs = solution
+        .runs
+        .iter()
+        .map(|r| portions_of(lab, r, &solution.used_stocks, &vessel_of))
+        .collect();
+    Ok(Mixing {
+        vessel_of,
+        poured: lab.mixing.poured,
+        runs,
+    })
+}
 
-    // A single stock that holds a whole group can never be kept apart.
+/// A single stock that holds a whole keep-apart group can never be kept apart.
+fn check_stocks_keep_apart(spec: &Spec, lab: &Lab, used: &[usize]) -> Result<()> {
+    let groups = &lab.mixing.keep_apart;
     for &s in used {
         let st = &lab.stocks[s];
         for g in groups {
@@ -68,6 +81,14 @@ pub fn split(spec: &Spec, lab: &Lab, solution: &Solution) -> Result<Mixing> {
         }
     }
 
+    Ok(())
+}
+
+/// The vessel of every used stock: as the spec says, else the split that keeps each group
+/// apart with the two vessels' volumes closest over all runs.
+fn assign_vessels(spec: &Spec, lab: &Lab, solution: &Solution) -> Result<Vec<Vessel>> {
+    let used = &solution.used_stocks;
+    let groups = &lab.mixing.keep_apart;
     let fixed: Vec<Option<Vessel>> = used.iter().map(|&s| lab.stocks[s].vessel).collect();
     if groups.is_empty() && fixed.iter().any(Option::is_none) {
         let s = used[fixed.iter().position(Option::is_none).unwrap_or(0)];
@@ -156,59 +177,60 @@ pub fn split(spec: &Spec, lab: &Lab, solution: &Solution) -> Result<Mixing> {
             format!("vessel {v} would hold all of them; move one of its stocks to the other vessel, or change keep_apart"),
         ));
     };
+    Ok(vessel_of)
+}
 
-    let mut runs = Vec::with_capacity(solution.runs.len());
-    for r in &solution.runs {
-        let mut a = Portion {
-            vessel: Vessel::A,
-            items: Vec::new(),
+/// One run's two portions: each stock in its vessel, water split as the spec says.
+fn portions_of(
+    lab: &Lab,
+    r: &crate::solve::RunSolution,
+    used: &[usize],
+    vessel_of: &[Vessel],
+) -> RunPortions {
+    let mut a = Portion {
+        vessel: Vessel::A,
+        items: Vec::new(),
+    };
+    let mut b = Portion {
+        vessel: Vessel::B,
+        items: Vec::new(),
+    };
+    for (&s, &v) in used.iter().zip(vessel_of) {
+        let Some(add) = r.additions.iter().find(|x| x.stock == Some(s)) else {
+            continue;
         };
-        let mut b = Portion {
-            vessel: Vessel::B,
-            items: Vec::new(),
-        };
-        for (&s, &v) in used.iter().zip(&vessel_of) {
-            let Some(add) = r.additions.iter().find(|x| x.stock == Some(s)) else {
-                continue;
-            };
-            if add.volume <= 0.0 {
-                continue;
-            }
-            let item = (Some(s), add.volume, add.delivery.clone());
-            if v == Vessel::A {
-                a.items.push(item)
-            } else {
-                b.items.push(item)
-            }
+        if add.volume <= 0.0 {
+            continue;
         }
-        let water = r.water();
-        if water.volume > 0.0 {
-            match lab.water_vessel {
-                WaterVessel::Only(Vessel::A) => {
-                    a.items.push((None, water.volume, water.delivery.clone()))
-                }
-                WaterVessel::Only(Vessel::B) => {
-                    b.items.push((None, water.volume, water.delivery.clone()))
-                }
-                WaterVessel::Split => {
-                    let (wa, wb) =
-                        split_water(lab, water.volume, &water.delivery, a.volume(), b.volume());
-                    if let Some(w) = wa {
-                        a.items.push((None, w.0, w.1));
-                    }
-                    if let Some(w) = wb {
-                        b.items.push((None, w.0, w.1));
-                    }
-                }
-            }
+        let item = (Some(s), add.volume, add.delivery.clone());
+        if v == Vessel::A {
+            a.items.push(item)
+        } else {
+            b.items.push(item)
         }
-        runs.push(RunPortions { a, b });
     }
-    Ok(Mixing {
-        vessel_of,
-        poured: lab.mixing.poured,
-        runs,
-    })
+    let water = r.water();
+    if water.volume > 0.0 {
+        match lab.water_vessel {
+            WaterVessel::Only(Vessel::A) => {
+                a.items.push((None, water.volume, water.delivery.clone()))
+            }
+            WaterVessel::Only(Vessel::B) => {
+                b.items.push((None, water.volume, water.delivery.clone()))
+            }
+            WaterVessel::Split => {
+                let (wa, wb) =
+                    split_water(lab, water.volume, &water.delivery, a.volume(), b.volume());
+                if let Some(w) = wa {
+                    a.items.push((None, w.0, w.1));
+                }
+                if let Some(w) = wb {
+                    b.items.push((None, w.0, w.1));
+                }
+            }
+        }
+    }
+    RunPortions { a, b }
 }
 
 type Part = Option<(f64, Delivery)>;

@@ -1,0 +1,167 @@
+//! The stock preparation sheet as data ("format": "clockprep-stocks/1").
+
+use super::*;
+
+/// Version tag of the `clockprep stocks` JSON layout.
+pub const STOCKS_FORMAT: &str = "clockprep-stocks/1";
+
+/// The stock preparation sheet of `clockprep stocks`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StockSheet {
+    pub format: &'static str,
+    pub title: String,
+    pub spec: String,
+    pub stations: u32,
+    pub replicates: u32,
+    #[serde(rename = "overage_pct")]
+    pub overage_pct: f64,
+    pub stocks: Vec<StockPrep>,
+    pub cautions: Vec<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StockPrep {
+    pub name: String,
+    pub solute: Option<String>,
+    #[serde(rename = "molar_mass_g_per_mol")]
+    pub molar_mass: Option<f64>,
+    /// Concentration of the solute's formula unit, mol/L.
+    #[serde(rename = "solute_concentration_M")]
+    pub solute_concentration: Option<f64>,
+    /// What to make: runs (with overage) plus what dilutions draw.
+    #[serde(rename = "need_mL")]
+    pub need_ml: f64,
+    #[serde(rename = "drawn_by_dilutions_mL")]
+    pub drawn_ml: f64,
+    #[serde(rename = "flask_mL")]
+    pub flask_ml: f64,
+    pub flask_count: u32,
+    pub recipe: RecipeReport,
+    pub hazard_codes: Vec<String>,
+    pub hazards: Option<String>,
+    pub stability: Option<String>,
+    /// Source of the hazard and stability lines.
+    pub data_source: Option<String>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RecipeReport {
+    /// "weigh", "measure", "dilute" or "as usual".
+    pub kind: &'static str,
+    #[serde(rename = "grams_per_flask")]
+    pub grams: Option<f64>,
+    #[serde(rename = "mL_per_flask")]
+    pub ml: Option<f64>,
+    pub from: Option<String>,
+    #[serde(rename = "purity_pct")]
+    pub purity_pct: Option<f64>,
+    #[serde(rename = "mass_fraction_pct")]
+    pub mass_fraction_pct: Option<f64>,
+    #[serde(rename = "density_g_per_mL")]
+    pub density: Option<f64>,
+    /// The instruction in words, per flask.
+    pub text: String,
+}
+
+pub fn build_stocks(
+    spec: &Spec,
+    lab: &Lab,
+    preps: &[crate::lab::recipes::Preparation],
+) -> StockSheet {
+    use crate::lab::recipes::Action;
+    use crate::spec::Recipe;
+    let stocks = preps
+        .iter()
+        .map(|p| {
+            let st = &lab.stocks[p.stock];
+            let flask = format!("{} mL volumetric flask", sig10(p.flask * 1e3));
+            let (molar_mass, solute_concentration, purity, w, rho) = match &st.recipe {
+                Recipe::Weigh { concentration, molar_mass, purity, .. } => (Some(*molar_mass), Some(*concentration), Some(*purity), None, None),
+                Recipe::Measure { concentration, molar_mass, mass_fraction, density, .. } => {
+                    (Some(*molar_mass), Some(*concentration), None, Some(*mass_fraction), Some(*density))
+                }
+                _ => (None, None, None, None, None),
+            };
+            let solute = st.solute.clone().unwrap_or_default();
+            let (kind, grams, volume, from, text) = match &p.action {
+                Action::Weigh { grams } => (
+                    "weigh",
+                    Some(*grams),
+                    None,
+                    None,
+                    format!(
+                        "Weigh {grams:.4} g of {solute} ({:.2} g/mol{}) into a {flask}; dissolve in water and make up to the mark.",
+                        molar_mass.unwrap_or(0.0),
+                        purity.filter(|p| *p < 1.0).map(|p| format!(", assay {} %", sig10(p * 100.0))).unwrap_or_default()
+                    ),
+                ),
+                Action::Measure { ml } => (
+                    "measure",
+                    None,
+                    Some(*ml),
+                    None,
+                    format!(
+                        "Half fill a {flask} with water, add {ml:.2} mL of {solute} reagent ({} %, {} g/mL) — always reagent into water — and make up to the mark once cool.",
+                        sig10(w.unwrap_or(0.0) * 100.0),
+                        rho.unwrap_or(0.0)
+                    ),
+                ),
+                Action::Dilute { from, ml } => (
+                    "dilute",
+                    None,
+                    Some(*ml),
+                    Some(lab.stocks[*from].name.clone()),
+                    format!("Deliver {ml:.2} mL of '{}' into a {flask} and make up to the mark with water.", lab.stocks[*from].name),
+                ),
+                Action::AsUsual => ("as usual", None, None, None, format!("Make up in a {flask} as your method describes (no formula to compute from).")),
+            };
+            let text = if p.flask_count > 1 { format!("{text} Make {} flasks.", p.flask_count) } else { text };
+            let species: Vec<&str> = st.contains.iter().map(|(s, _)| s.as_str()).collect();
+            let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
+            StockPrep {
+                name: st.name.clone(),
+                solute: st.solute.clone(),
+                molar_mass: molar_mass.map(sig10),
+                solute_concentration: solute_concentration.map(sig10),
+                need_ml: ml(p.need),
+                drawn_ml: ml(p.drawn),
+                flask_ml: ml(p.flask),
+                flask_count: p.flask_count,
+                recipe: RecipeReport {
+                    kind,
+                    grams: grams.map(sig10),
+                    ml: volume.map(sig10),
+                    from,
+                    purity_pct: purity.map(|p| sig10(p * 100.0)),
+                    mass_fraction_pct: w.map(|x| sig10(x * 100.0)),
+                    density: rho.map(sig10),
+                    text,
+                },
+                hazard_codes: reagent.map(|r| r.ghs.clone()).unwrap_or_default(),
+                hazards: reagent.map(|r| r.plain.clone()),
+                stability: reagent.map(|r| r.stability.clone()),
+                data_source: reagent.map(|r| r.source.clone()),
+            }
+        })
+        .collect();
+    let used = preps.iter().map(|p| {
+        let st = &lab.stocks[p.stock];
+        (
+            st.solute.as_deref(),
+            st.contains
+                .iter()
+                .map(|(s, _)| s.as_str())
+                .collect::<Vec<_>>(),
+        )
+    });
+    StockSheet {
+        format: STOCKS_FORMAT,
+        title: spec.title.clone(),
+        spec: spec.source.name.clone(),
+        stations: spec.stations,
+        replicates: spec.replicates,
+        overage_pct: sig10(lab.overage * 100.0),
+        stocks,
+        cautions: reagents::cautions(used),
+    }
+}
