@@ -114,7 +114,7 @@ impl Checker<'_> {
         available: &dyn Fn(&str) -> bool,
     ) -> Result<crate::spec::Reaction> {
         use crate::reference::equation::parse_equation;
-        use crate::spec::{Reaction, Term, Visible, MAX_TERMS};
+        use crate::spec::{Reaction, Visible, MAX_TERMS};
         let raw = r.get_ref();
         let table = r.span().start..r.span().start;
         let preset = match &raw.preset {
@@ -134,9 +134,16 @@ impl Checker<'_> {
                 Some((key.to_string(), src, parsed))
             }
         };
-        let preset_checker = preset.as_ref().map(|(_, src, _)| Checker {
-            src,
-            purpose: self.purpose,
+        // The preset's own checker, so its values are located in the preset's text.
+        let preset = preset.as_ref().map(|(key, src, parsed)| {
+            (
+                key,
+                Checker {
+                    src,
+                    purpose: self.purpose,
+                },
+                parsed,
+            )
         });
         let missing = |what: &str, example: &str| {
             self.err(
@@ -156,8 +163,8 @@ impl Checker<'_> {
             if let Some(v) = own {
                 return Some((self, v.clone()));
             }
-            let (_, _, p) = preset.as_ref()?;
-            theirs(p).map(|v| (preset_checker.as_ref().expect("preset checker"), v))
+            let (_, checker, p) = preset.as_ref()?;
+            theirs(p).map(|v| (checker, v))
         };
         let (c, rate_name) = pick_name(&raw.rate_species, &|p| p.rate_species.clone())
             .ok_or_else(|| missing("rate_species", "rate_species = \"BrO3-\""))?;
@@ -190,10 +197,12 @@ impl Checker<'_> {
 
         let (tc, raw_terms): (&Checker, &Vec<Spanned<RawTerm>>) = match (
             &raw.term,
-            preset.as_ref().and_then(|(_, _, p)| p.term.as_ref()),
+            preset
+                .as_ref()
+                .and_then(|(_, c, p)| p.term.as_ref().map(|t| (c, t))),
         ) {
             (Some(t), _) => (self, t),
-            (None, Some(t)) => (preset_checker.as_ref().expect("preset checker"), t),
+            (None, Some((c, t))) => (c, t),
             (None, None) => {
                 return Err(missing(
                     "at least one [[reaction.term]]",
@@ -211,112 +220,17 @@ impl Checker<'_> {
         }
         let mut terms = Vec::new();
         for rt in raw_terms {
-            let t = rt.get_ref();
-            let mut orders = Vec::new();
-            for (k, v) in &t.orders.get_ref().0 {
-                let sp = tc.species(k)?;
-                let n = match v.get_ref() {
-                    Value::Integer(i) => *i as f64,
-                    Value::Float(f) => *f,
-                    _ => f64::NAN,
-                };
-                if !n.is_finite() || !(-2.0..=5.0).contains(&n) {
-                    return Err(tc.err(v.span(), format!("the order in {sp} must be a number from -2 to 5"), "not an order", "e.g. orders = { \"BrO3-\" = 1, \"H+\" = 2 } (fractions such as 0.5 are fine)"));
-                }
-                if !available(&sp) {
-                    return Err(tc.err(
-                        inner(k.span(), &tc.src.text),
-                        format!(
-                            "the rate law needs {sp}, but {}",
-                            if self.purpose == Purpose::Plan {
-                                "no stock contains it"
-                            } else {
-                                "the runs give no concentration for it"
-                            }
-                        ),
-                        "missing from the runs",
-                        "add it to the stocks and run targets, or change the rate law",
-                    ));
-                }
-                orders.push((sp, n));
-            }
-            if orders.is_empty() {
-                return Err(tc.err(
-                    t.orders.span(),
-                    "a rate-law term needs orders",
-                    "empty",
-                    "e.g. orders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }",
-                ));
-            }
-            let k = tc.special(
-                &t.k,
-                "k",
-                Kind::Time,
-                "\"40 M^-3 s^-1\"",
-                units::parse_rate_constant,
-            )?;
-            let overall: f64 = orders.iter().map(|(_, n)| n).sum();
-            if (k.conc_exponent - (1.0 - overall)).abs() > 1e-9 {
-                return Err(tc.err(
-                    inner(t.k.span(), &tc.src.text),
-                    format!("k has units of M^{} s^-1, but a term of overall order {overall} needs M^{} s^-1", k.conc_exponent, 1.0 - overall),
-                    "units do not match the orders",
-                    format!("write k in M^{} s^-1 (or the same in L, mol and min)", 1.0 - overall),
-                ));
-            }
-            if k.value <= 0.0 {
-                return Err(tc.err(
-                    inner(t.k.span(), &tc.src.text),
-                    "k must be greater than zero",
-                    "not positive",
-                    "e.g. k = \"40 M^-3 s^-1\"",
-                ));
-            }
-            let t_ref = tc.qty(&t.at, Kind::Temperature, "at")?;
-            if !(273.15..=333.15).contains(&t_ref) {
-                return Err(tc.err(
-                    inner(t.at.span(), &tc.src.text),
-                    format!("at = {} °C is outside 0–60 °C", units::sig3(t_ref - 273.15)),
-                    "out of range",
-                    "give k at a temperature of the teaching lab, e.g. at = \"25 °C\"",
-                ));
-            }
-            let activation_energy = match &t.activation_energy {
-                None => None,
-                Some(q) => {
-                    let ea = tc.special(
-                        q,
-                        "activation_energy",
-                        Kind::Fraction,
-                        "\"54 kJ/mol\"",
-                        units::parse_energy,
-                    )?;
-                    if !(0.0..=300_000.0).contains(&ea) {
-                        return Err(tc.err(
-                            inner(q.span(), &tc.src.text),
-                            "activation_energy must be from 0 to 300 kJ/mol",
-                            "out of range",
-                            "e.g. activation_energy = \"54 kJ/mol\"",
-                        ));
-                    }
-                    Some(ea)
-                }
-            };
-            terms.push(Term {
-                k_ref: k.value,
-                t_ref,
-                activation_energy,
-                orders,
-                source: t.source.clone(),
-            });
+            terms.push(tc.term(rt, available, self.purpose)?);
         }
 
         let visible = match (
             &raw.visible,
-            preset.as_ref().and_then(|(_, _, p)| p.visible.as_ref()),
+            preset
+                .as_ref()
+                .and_then(|(_, c, p)| p.visible.as_ref().map(|v| (c, v))),
         ) {
             (Some(v), _) => Some((self, v)),
-            (None, Some(v)) => Some((preset_checker.as_ref().expect("preset checker"), v)),
+            (None, Some((c, v))) => Some((c, v)),
             (None, None) => None,
         };
         let visible = match visible {
@@ -328,12 +242,126 @@ impl Checker<'_> {
         };
         let name = match &preset {
             Some((key, ..)) if raw.main.is_none() && raw.clock.is_none() && raw.term.is_none() => {
-                key.clone()
+                key.to_string()
             }
             Some((key, ..)) => format!("{key} (adjusted)"),
             None => raw.description.clone().unwrap_or_else(|| "custom".into()),
         };
         Reaction::new(name, rate_species, timing.to_string(), main, clock, terms, visible)
             .map_err(|e| mc.err(inner(main_name.span(), &mc.src.text), format!("the reaction does not make a clock: {e}"), "here", "the main reaction must consume the rate species and make what the clock reaction removes with the timing species"))
+    }
+    /// One `[[reaction.term]]`: orders over species the runs give, k in units that match the
+    /// overall order, its temperature, and the activation energy.
+    fn term(
+        &self,
+        rt: &Spanned<RawTerm>,
+        available: &dyn Fn(&str) -> bool,
+        purpose: Purpose,
+    ) -> Result<crate::spec::Term> {
+        use crate::spec::Term;
+        let tc = self;
+        let t = rt.get_ref();
+        let mut orders = Vec::new();
+        for (k, v) in &t.orders.get_ref().0 {
+            let sp = tc.species(k)?;
+            let n = match v.get_ref() {
+                Value::Integer(i) => *i as f64,
+                Value::Float(f) => *f,
+                _ => f64::NAN,
+            };
+            if !n.is_finite() || !(-2.0..=5.0).contains(&n) {
+                return Err(tc.err(
+                    v.span(),
+                    format!("the order in {sp} must be a number from -2 to 5"),
+                    "not an order",
+                    "e.g. orders = { \"BrO3-\" = 1, \"H+\" = 2 } (fractions such as 0.5 are fine)",
+                ));
+            }
+            if !available(&sp) {
+                return Err(tc.err(
+                    inner(k.span(), &tc.src.text),
+                    format!(
+                        "the rate law needs {sp}, but {}",
+                        if purpose == Purpose::Plan {
+                            "no stock contains it"
+                        } else {
+                            "the runs give no concentration for it"
+                        }
+                    ),
+                    "missing from the runs",
+                    "add it to the stocks and run targets, or change the rate law",
+                ));
+            }
+            orders.push((sp, n));
+        }
+        if orders.is_empty() {
+            return Err(tc.err(
+                t.orders.span(),
+                "a rate-law term needs orders",
+                "empty",
+                "e.g. orders = { \"BrO3-\" = 1, \"I-\" = 1, \"H+\" = 2 }",
+            ));
+        }
+        let k = tc.special(
+            &t.k,
+            "k",
+            Kind::Time,
+            "\"40 M^-3 s^-1\"",
+            units::parse_rate_constant,
+        )?;
+        let overall: f64 = orders.iter().map(|(_, n)| n).sum();
+        if (k.conc_exponent - (1.0 - overall)).abs() > 1e-9 {
+            return Err(tc.err(
+            inner(t.k.span(), &tc.src.text),
+            format!("k has units of M^{} s^-1, but a term of overall order {overall} needs M^{} s^-1", k.conc_exponent, 1.0 - overall),
+            "units do not match the orders",
+            format!("write k in M^{} s^-1 (or the same in L, mol and min)", 1.0 - overall),
+        ));
+        }
+        if k.value <= 0.0 {
+            return Err(tc.err(
+                inner(t.k.span(), &tc.src.text),
+                "k must be greater than zero",
+                "not positive",
+                "e.g. k = \"40 M^-3 s^-1\"",
+            ));
+        }
+        let t_ref = tc.qty(&t.at, Kind::Temperature, "at")?;
+        if !(273.15..=333.15).contains(&t_ref) {
+            return Err(tc.err(
+                inner(t.at.span(), &tc.src.text),
+                format!("at = {} °C is outside 0–60 °C", units::sig3(t_ref - 273.15)),
+                "out of range",
+                "give k at a temperature of the teaching lab, e.g. at = \"25 °C\"",
+            ));
+        }
+        let activation_energy = match &t.activation_energy {
+            None => None,
+            Some(q) => {
+                let ea = tc.special(
+                    q,
+                    "activation_energy",
+                    Kind::Fraction,
+                    "\"54 kJ/mol\"",
+                    units::parse_energy,
+                )?;
+                if !(0.0..=300_000.0).contains(&ea) {
+                    return Err(tc.err(
+                        inner(q.span(), &tc.src.text),
+                        "activation_energy must be from 0 to 300 kJ/mol",
+                        "out of range",
+                        "e.g. activation_energy = \"54 kJ/mol\"",
+                    ));
+                }
+                Some(ea)
+            }
+        };
+        Ok(Term {
+            k_ref: k.value,
+            t_ref,
+            activation_energy,
+            orders,
+            source: t.source.clone(),
+        })
     }
 }
