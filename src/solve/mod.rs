@@ -18,6 +18,7 @@
 mod checks;
 mod explain;
 mod milp;
+mod model;
 
 use crate::error::{Error, Result};
 use crate::reference::glassware::{find_delivery, find_delivery_in_two, Delivery, Device};
@@ -25,10 +26,10 @@ use crate::spec::{IonicTarget, Lab, Run, Spec, WaterVessel};
 use crate::units;
 use checks::*;
 use explain::*;
-use good_lp::{variable, Expression, ProblemVariables, ResolutionError, Variable};
+use good_lp::ResolutionError;
 use milp::*;
+use model::*;
 use std::collections::HashMap;
-use std::ops::Range;
 
 /// Safety net against a runaway branch-and-bound; a normal run solves in milliseconds.
 /// Longest one solve may take by default, s (`CLOCKPREP_SOLVE_TIMEOUT` overrides it). A run's
@@ -359,177 +360,6 @@ fn nearest_deliverable(
         }
     }
     (below, above)
-}
-
-/// The linear data of one run: which stocks vary and what each goal needs.
-struct RunModel<'a> {
-    spec: &'a Spec,
-    lab: &'a Lab,
-    run: &'a Run,
-    /// Stocks whose volume the solve chooses.
-    vary: Vec<usize>,
-    /// Volume left for varied stocks and water (mL).
-    free_ml: f64,
-    goals: Vec<GoalRow>,
-    /// s per solve
-    time_limit: f64,
-}
-
-struct GoalRow {
-    label: String,
-    target: f64,
-    /// Per varied stock: amount per mL in mmol (i.e. mol/L).
-    coeffs: Vec<f64>,
-    /// mmol from the constant additions.
-    constant: f64,
-    /// The held ionic strength rather than a species.
-    ionic: bool,
-    span: Range<usize>,
-}
-
-impl<'a> RunModel<'a> {
-    fn new(
-        spec: &'a Spec,
-        lab: &'a Lab,
-        run: &'a Run,
-        constant: &Constant,
-        ionic: Option<f64>,
-    ) -> Self {
-        let fixed: Vec<usize> = constant.additions.iter().filter_map(|a| a.stock).collect();
-        let vary: Vec<usize> = (0..lab.stocks.len())
-            .filter(|&s| lab.stocks[s].in_runs && !fixed.contains(&s))
-            .filter(|&s| {
-                let st = &lab.stocks[s];
-                let is_salt = ionic.is_some() && lab.ionic.as_ref().is_some_and(|i| i.stock == s);
-                is_salt
-                    || run
-                        .targets
-                        .iter()
-                        .any(|t| st.concentration_of(&t.species) > 0.0)
-            })
-            .collect();
-        let constant_of = |f: &dyn Fn(usize) -> f64| -> f64 {
-            constant
-                .additions
-                .iter()
-                .map(|a| f(a.stock.unwrap_or(usize::MAX)) * a.volume * 1e3)
-                .sum()
-        };
-        let mut goals: Vec<GoalRow> = run
-            .targets
-            .iter()
-            .map(|t| GoalRow {
-                label: t.species.clone(),
-                target: t.concentration,
-                coeffs: vary
-                    .iter()
-                    .map(|&s| lab.stocks[s].concentration_of(&t.species))
-                    .collect(),
-                constant: constant_of(&|s| {
-                    lab.stocks
-                        .get(s)
-                        .map_or(0.0, |st| st.concentration_of(&t.species))
-                }),
-                span: t.span.clone(),
-                ionic: false,
-            })
-            .collect();
-        if let (Some(target), Some(hold)) = (ionic, &lab.ionic) {
-            goals.push(GoalRow {
-                label: "ionic strength".into(),
-                target,
-                coeffs: vary
-                    .iter()
-                    .map(|&s| lab.stocks[s].ionic_strength())
-                    .collect(),
-                constant: constant_of(&|s| lab.stocks.get(s).map_or(0.0, |st| st.ionic_strength())),
-                span: hold.span.clone(),
-                ionic: true,
-            });
-        }
-        RunModel {
-            spec,
-            lab,
-            run,
-            vary,
-            free_ml: (lab.total_volume - constant.volume) * 1e3,
-            goals,
-            time_limit: constant.time_limit,
-        }
-    }
-
-    fn total_ml(&self) -> f64 {
-        self.lab.total_volume * 1e3
-    }
-
-    /// Largest volume (mL) the allowed devices of a stock deliver in one addition.
-    fn cap_ml(&self, devices: &[usize]) -> f64 {
-        devices
-            .iter()
-            .map(|&d| self.lab.devices[d].max * 1e3)
-            .fold(0.0, f64::max)
-            .min(self.free_ml)
-    }
-}
-
-/// Variables of one delivery choice inside the integer model.
-struct DeliveryVars {
-    /// (device, count variable)
-    counts: Vec<(usize, Variable)>,
-    volume: Expression,
-    /// (binary, preference weight)
-    choices: Vec<(Variable, f64)>,
-}
-
-fn delivery_vars(
-    vars: &mut ProblemVariables,
-    allowed: &[usize],
-    devices: &[Device],
-    constraints: &mut Vec<good_lp::Constraint>,
-) -> DeliveryVars {
-    let mut counts = Vec::new();
-    let mut volume = Expression::from(0.0);
-    let mut choices = Vec::new();
-    let mut pipet_sum = Expression::from(0.0);
-    let mut pipet_fills = 0.0;
-    for &d in allowed {
-        let dev = &devices[d];
-        let (lo, hi) = dev.count_range();
-        let step_ml = dev.step * 1e3;
-        if dev.is_volumetric() {
-            let n = vars.add(variable().integer().min(0).max(hi as f64));
-            counts.push((d, n));
-            volume += step_ml * n;
-            pipet_sum += n;
-            pipet_fills += hi as f64;
-        } else {
-            if lo > hi {
-                continue;
-            }
-            let n = vars.add(variable().integer().min(0).max(hi as f64));
-            let y = vars.add(variable().binary());
-            constraints.push((n - (lo as f64) * y).geq(0.0));
-            constraints.push((n - (hi as f64) * y).leq(0.0));
-            counts.push((d, n));
-            volume += step_ml * n;
-            choices.push((y, dev.kind.preference()));
-        }
-    }
-    if pipet_fills > 0.0 {
-        let y = vars.add(variable().binary());
-        constraints.push((pipet_sum.clone() - pipet_fills * y).leq(0.0));
-        constraints.push((pipet_sum - y).geq(0.0));
-        choices.push((y, 0.0));
-    }
-    if choices.len() > 1 {
-        let sum: Expression = choices.iter().map(|(y, _)| *y).sum();
-        constraints.push(sum.leq(1.0));
-    }
-    DeliveryVars {
-        counts,
-        volume,
-        choices,
-    }
 }
 
 fn solve_run(
