@@ -317,6 +317,19 @@ const BAD: &[(&str, &str, &str, &str)] = &[
     ),
 ];
 
+/// A snapshot name from a table entry's description.
+fn slug(what: &str) -> String {
+    let mut out = String::new();
+    for c in what.chars() {
+        if c.is_ascii_alphanumeric() {
+            out.push(c.to_ascii_lowercase());
+        } else if !out.ends_with('_') {
+            out.push('_');
+        }
+    }
+    out.trim_matches('_').to_string()
+}
+
 #[test]
 fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
     assert!(BAD.len() >= 15);
@@ -347,6 +360,11 @@ fn bad_specs_exit_2_with_a_located_message_and_write_nothing() {
             "{what}: no file:line:col in\n{stderr}"
         );
         assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
+        // The whole message as the user sees it, reviewed once and kept.
+        insta::assert_snapshot!(
+            format!("bad_spec_{}", slug(what)),
+            stderr.replace(&spec.display().to_string(), "bad.toml")
+        );
         assert!(
             !stderr.contains("expected i64") && !stderr.contains("invalid type"),
             "{what}: a TOML type error in serde's words:\n{stderr}"
@@ -494,6 +512,10 @@ fn bad_reactions_exit_2_with_a_located_message() {
             "{what}: expected {expect:?} in\n{stderr}"
         );
         assert!(stderr.contains("help:"), "{what}: no hint in\n{stderr}");
+        insta::assert_snapshot!(
+            format!("bad_reaction_{}", slug(what)),
+            stderr.replace(&spec.display().to_string(), "bad.toml")
+        );
         assert!(result.stdout.is_empty(), "{what}: printed a sheet");
     }
 }

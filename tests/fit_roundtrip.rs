@@ -1,28 +1,16 @@
 //! The fit against synthetic times made by the forecast model itself, and its least squares
 //! against an SVD solve from nalgebra.
 
+mod common;
+
+use common::Rng;
+
 use clockprep::error::SpecSource;
 use clockprep::kinetics::fit::{fit, least_squares, Options, Trial};
 use clockprep::kinetics::RunKinetics;
 use nalgebra::{DMatrix, DVector};
 
 const DEMO: &str = "plans/maple-hollow-bromate.toml";
-
-/// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014) with Box–Muller normals: seeded and small.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    }
-    fn normal(&mut self) -> f64 {
-        let (u1, u2) = (self.next().max(1e-300), self.next());
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
 
 /// Times the forecast gives with k scaled by `k_factor`, each run timed `reps` times with
 /// relative noise `sigma`.

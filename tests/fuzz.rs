@@ -12,6 +12,8 @@
 
 mod common;
 
+use common::Rng;
+
 use clockprep::error::{Error, SpecSource};
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::time::{Duration, Instant};
@@ -26,26 +28,6 @@ const PILOT: &str = include_str!("../plans/maple-hollow-pilot.csv");
 /// Longest one mutant may take through the library (debug build), s. Real specs take well
 /// under a second; this catches a hang, not a slow path.
 const BOUND: Duration = Duration::from_secs(20);
-
-/// xorshift64*: one seeded generator, so a failure is reproduced by its seed.
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        let mut x = self.0;
-        x ^= x >> 12;
-        x ^= x << 25;
-        x ^= x >> 27;
-        self.0 = x;
-        x.wrapping_mul(0x2545_F491_4F6C_DD1D)
-    }
-    fn below(&mut self, n: usize) -> usize {
-        (self.next() % n.max(1) as u64) as usize
-    }
-    fn pick<'a, T>(&mut self, items: &'a [T]) -> &'a T {
-        &items[self.below(items.len())]
-    }
-}
 
 /// Byte ranges of the numbers in a text (digits with an optional point and exponent).
 fn numbers(text: &str) -> Vec<std::ops::Range<usize>> {
@@ -255,7 +237,7 @@ fn mutate_once(text: &[u8], rng: &mut Rng) -> Vec<u8> {
         10 if !text.is_empty() => {
             let mut b = text.to_vec();
             let i = rng.below(b.len());
-            b[i] = (rng.next() & 0xff) as u8;
+            b[i] = (rng.next_u64() & 0xff) as u8;
             return b;
         }
         // a quoted string emptied or made very long
@@ -410,7 +392,7 @@ fn fuzz(count: usize, seed: u64) -> Tally {
                     for i in (t..count).step_by(threads) {
                         let mut rng =
                             Rng(seed ^ (i as u64 + 1).wrapping_mul(0x9E37_79B9_7F4A_7C15));
-                        rng.next();
+                        rng.next_u64();
                         // One mutant in eight is a times CSV, the others specs.
                         if rng.below(8) == 0 {
                             let m = mutant(PILOT, &mut rng);

@@ -3,30 +3,13 @@
 //! part), every stock concentration from its relative uncertainty; the spread of the final
 //! concentrations and of the forecast time must match the first-order values within 5 %.
 
+mod common;
+
+use common::Rng;
+
 use clockprep::error::SpecSource;
 use clockprep::kinetics::RunKinetics;
 use clockprep::lab::uncertainty::{propagate, tolerance};
-
-/// SplitMix64: a small, well-known seeded generator (Steele, Lea & Flood, OOPSLA 2014).
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn uniform(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-    /// Standard normal by Box–Muller.
-    fn normal(&mut self) -> f64 {
-        let (u1, u2) = (self.uniform().max(1e-300), self.uniform());
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
 
 fn sd(x: &[f64]) -> f64 {
     let m = x.iter().sum::<f64>() / x.len() as f64;

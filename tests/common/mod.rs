@@ -2,7 +2,11 @@
 //! it printed and wrote.
 #![allow(dead_code)]
 
+pub mod rng;
+
 use assert_cmd::Command;
+#[allow(unused_imports)]
+pub use rng::Rng;
 use std::path::{Path, PathBuf};
 
 pub const BROMATE: &str = include_str!("../../plans/maple-hollow-bromate.toml");
