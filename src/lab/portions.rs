@@ -273,50 +273,24 @@ fn split_water(lab: &Lab, water: f64, whole: &Delivery, a: f64, b: f64) -> (Part
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::error::SpecSource;
-
-    const SPEC: &str = r#"
-[plan]
-title = "mixing check"
-total_volume = "40.0 mL"
-
-[timing]
-species = "S2O3^2-"
-concentration = "0.100 mM"
-
-[mixing]
-keep_apart = [["BrO3-", "I-", "H+"], ["S2O3^2-", "H+"]]
-
-[[stock]]
-name = "KI"
-contains = { "I-" = "0.0400 M", "K+" = "0.0400 M" }
-
-[[stock]]
-name = "KBrO3"
-contains = { "BrO3-" = "0.0400 M", "K+" = "0.0400 M" }
-
-[[stock]]
-name = "HCl"
-contains = { "H+" = "0.100 M", "Cl-" = "0.100 M" }
-
-[[stock]]
-name = "thio"
-contains = { "S2O3^2-" = "1.00 mM", "Na+" = "2.00 mM" }
-
-[[device]]
-name = "buret"
-kind = "buret"
-capacity = "50 mL"
-graduation = "0.05 mL"
-
-[[run]]
-name = "r"
-targets = { "I-" = "4.00 mM", "BrO3-" = "8.00 mM", "H+" = "20.0 mM" }
-"#;
+    use crate::spec::fixture::Fixture;
 
     #[test]
     fn keeps_groups_apart_and_balances_water() {
-        let spec = crate::spec::load(SpecSource::new("t.toml", SPEC)).unwrap();
+        let spec = Fixture::new("mixing check", "40.0 mL")
+            .keep_apart(&["BrO3-", "I-", "H+"])
+            .keep_apart(&["S2O3^2-", "H+"])
+            .stock("KI", &[("I-", "0.0400 M"), ("K+", "0.0400 M")])
+            .stock("KBrO3", &[("BrO3-", "0.0400 M"), ("K+", "0.0400 M")])
+            .stock("HCl", &[("H+", "0.100 M"), ("Cl-", "0.100 M")])
+            .stock("thio", &[("S2O3^2-", "1.00 mM"), ("Na+", "2.00 mM")])
+            .buret("buret", "50 mL", "0.05 mL")
+            .run(
+                "r",
+                &[("I-", "4.00 mM"), ("BrO3-", "8.00 mM"), ("H+", "20.0 mM")],
+            )
+            .load()
+            .unwrap();
         let lab = spec.lab.as_ref().unwrap();
         let sol = crate::solve::solve(&spec, lab).unwrap();
         let m = split(&spec, lab, &sol).unwrap();

@@ -553,52 +553,33 @@ mod tests {
         crate::spec::load(SpecSource::new("t.toml", text)).unwrap()
     }
 
-    const BASE: &str = r#"
-[plan]
-title = "dilution check"
-total_volume = "50.0 mL"
-tolerance = "0.5 %"
-
-[timing]
-species = "S2O3^2-"
-concentration = "0.200 mM"
-
-[mixing]
-keep_apart = [["I-", "BrO3-"]]
-
-[[stock]]
-name = "KI 0.0500 M"
-contains = { "I-" = "0.0500 M", "K+" = "0.0500 M" }
-
-[[stock]]
-name = "KBrO3 0.0400 M"
-contains = { "BrO3-" = "0.0400 M", "K+" = "0.0400 M" }
-
-[[stock]]
-name = "thio 2.00 mM"
-contains = { "S2O3^2-" = "2.00 mM", "Na+" = "4.00 mM" }
-
-[[device]]
-name = "50 mL buret"
-kind = "buret"
-capacity = "50 mL"
-graduation = "0.10 mL"
-
-[[run]]
-name = "r1"
-targets = { "I-" = "10.0 mM", "BrO3-" = "8.00 mM" }
-
-[[run]]
-name = "r2"
-targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
-"#;
+    /// Two runs from single-purpose stocks and one buret: every volume follows from M1V1.
+    fn base() -> String {
+        crate::spec::fixture::Fixture::new("dilution check", "50.0 mL")
+            .plan("tolerance = \"0.5 %\"")
+            .timing("S2O3^2-", "0.200 mM")
+            .keep_apart(&["I-", "BrO3-"])
+            .stock("KI 0.0500 M", &[("I-", "0.0500 M"), ("K+", "0.0500 M")])
+            .stock(
+                "KBrO3 0.0400 M",
+                &[("BrO3-", "0.0400 M"), ("K+", "0.0400 M")],
+            )
+            .stock(
+                "thio 2.00 mM",
+                &[("S2O3^2-", "2.00 mM"), ("Na+", "4.00 mM")],
+            )
+            .buret("50 mL buret", "50 mL", "0.10 mL")
+            .run("r1", &[("I-", "10.0 mM"), ("BrO3-", "8.00 mM")])
+            .run("r2", &[("I-", "5.00 mM"), ("BrO3-", "8.00 mM")])
+            .text()
+    }
 
     #[test]
     fn single_species_stocks_follow_the_dilution_law() {
         // M1V1 = M2V2 (common practice): V = C_target · V_total / C_stock.
         // r1: I- 10.0 mM × 50 mL / 50.0 mM = 10.0 mL; BrO3- 8.00 mM × 50 / 40.0 = 10.0 mL;
         // thiosulfate 0.200 mM × 50 / 2.00 = 5.00 mL; water 25.0 mL.
-        let s = spec(BASE);
+        let s = spec(&base());
         let sol = solve_spec(&s).unwrap();
         let r1 = &sol.runs[0];
         assert_relative_eq!(r1.volume_of(0), 10.0e-3, epsilon = 1e-12);
@@ -622,7 +603,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         // Targets: BrO3- 4.00 mM, H+ 50.0 mM in 50 mL.
         // Acidified bromate 0.0400 M BrO3- / 0.100 M H+: V_b = 4.00·50/40.0 = 5.00 mL,
         // bringing 0.100·5.00/50 = 10.0 mM H+; HCl 0.200 M makes up 40.0 mM: V = 40.0·50/200 = 10.0 mL.
-        let text = BASE
+        let text = base()
             .replace(
                 "contains = { \"BrO3-\" = \"0.0400 M\", \"K+\" = \"0.0400 M\" }",
                 "contains = { \"BrO3-\" = \"0.0400 M\", \"K+\" = \"0.0400 M\", \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\" }",
@@ -658,7 +639,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
     fn off_grid_target_is_the_best_deliverable() {
         // 7.77 mM I- in 50 mL from 50.0 mM needs 7.77 mL; the 0.10 mL buret gives 7.80 mL,
         // +0.386 % (within 0.5 %), the nearest on its graduation.
-        let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"7.77 mM\"");
+        let text = base().replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"7.77 mM\"");
         let sol = solve_spec(&spec(&text)).unwrap();
         assert_relative_eq!(sol.runs[0].volume_of(0), 7.8e-3, epsilon = 1e-12);
         assert!(sol.runs[0].flags.is_empty());
@@ -666,7 +647,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
 
     #[test]
     fn unreachable_target_names_run_species_and_stock() {
-        let text = BASE.replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"60.0 mM\"");
+        let text = base().replace("\"I-\" = \"10.0 mM\"", "\"I-\" = \"60.0 mM\"");
         let e = solve_spec(&spec(&text)).unwrap_err();
         let msg = e.message();
         assert!(msg.contains("run 'r1'"), "{msg}");
@@ -676,7 +657,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
 
     #[test]
     fn identical_runs_are_solved_once() {
-        let text = BASE.replace("\"I-\" = \"5.00 mM\"", "\"I-\" = \"10.0 mM\"");
+        let text = base().replace("\"I-\" = \"5.00 mM\"", "\"I-\" = \"10.0 mM\"");
         let sol = solve_spec(&spec(&text)).unwrap();
         assert_eq!(sol.runs[1].same_as, Some(0));
         assert_eq!(sol.runs[1].additions, sol.runs[0].additions);
@@ -688,7 +669,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
         // KI 0.0100 M + KBrO3 0.00800 M + thiosulfate ½(0.2 mM·4 + 0.4 mM) = 0.0186 M.
         // Holding 0.100 M needs 4.07 mL of 1.00 M KNO3, but a 1 mL pipet gives 4 or 5 mL:
         // I = 0.0986 M (-1.4 %), flagged, while iodide and bromate stay exact.
-        let text = BASE
+        let text = base()
             .replace(
                 "[[device]]",
                 "[[stock]]\nname = \"KNO3 1.00 M\"\ncontains = { \"K+\" = \"1.00 M\", \"NO3-\" = \"1.00 M\" }\ndevices = [\"1 mL pipet\"]\n\n[[device]]\nname = \"1 mL pipet\"\nkind = \"volumetric pipet\"\nvolume = \"1 mL\"\nfills = 5\n\n[[device]]",

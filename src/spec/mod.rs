@@ -8,6 +8,8 @@
 mod checker;
 mod design;
 mod devices;
+#[cfg(test)]
+pub(crate) mod fixture;
 pub mod model;
 mod plan;
 pub mod presets;
@@ -77,40 +79,10 @@ pub mod limits {
 mod tests {
     use super::*;
 
-    pub const SMALL: &str = r#"
-[plan]
-title = "test"
-total_volume = "20.0 mL"
-
-[timing]
-species = "S2O3^2-"
-concentration = "0.100 mM"
-
-[mixing]
-keep_apart = [["I-", "BrO3-"]]
-
-[[stock]]
-name = "KI"
-contains = { "I-" = "0.0200 M", "K+" = "0.0200 M" }
-
-[[stock]]
-name = "KBrO3"
-contains = { "BrO3-" = "0.0400 M", "K+" = "0.0400 M" }
-
-[[stock]]
-name = "thio"
-contains = { "S2O3^2-" = "1.00 mM", "Na+" = "2.00 mM" }
-
-[[device]]
-name = "buret"
-kind = "buret"
-capacity = "25 mL"
-graduation = "0.05 mL"
-
-[[run]]
-name = "r1"
-targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
-"#;
+    /// The smallest spec that plans, as TOML.
+    fn small() -> String {
+        super::fixture::Fixture::small_bromate().text()
+    }
 
     fn load_str(text: &str) -> Result<Spec> {
         load(SpecSource::new("t.toml", text))
@@ -118,7 +90,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
 
     #[test]
     fn loads_a_small_spec() {
-        let s = load_str(SMALL).unwrap();
+        let s = load_str(&small()).unwrap();
         assert_eq!(s.runs[0].targets[0].species, "I-");
         let lab = s.lab.as_ref().expect("a planning spec has its lab part");
         assert_eq!(lab.stocks.len(), 3);
@@ -132,7 +104,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
 
     #[test]
     fn bare_number_points_at_it() {
-        let text = SMALL.replace("\"20.0 mL\"", "20");
+        let text = small().replace("\"20.0 mL\"", "20");
         let e = load_str(&text).unwrap_err();
         assert!(e.message().contains("bare number"), "{}", e.message());
         assert!(e.help_text().unwrap().contains("\"30.0 mL\""));
@@ -140,7 +112,7 @@ targets = { "I-" = "5.00 mM", "BrO3-" = "8.00 mM" }
 
     #[test]
     fn unknown_keys_are_errors() {
-        let text = SMALL.replace("title = \"test\"", "title = \"test\"\ncolour = \"red\"");
+        let text = small().replace("title = \"test\"", "title = \"test\"\ncolour = \"red\"");
         let e = load_str(&text).unwrap_err();
         assert!(e.message().contains("unknown field"), "{}", e.message());
     }
