@@ -7,7 +7,6 @@
 //! carries the cautions, the pour order, the predicted time with its band (marked as a
 //! forecast), and boxes to record measured times and temperatures.
 
-use crate::report::words::secs;
 use crate::report::{PlanReport, RunReport};
 use maud::{html, Markup, PreEscaped, DOCTYPE};
 
@@ -134,15 +133,13 @@ fn cautions(report: &PlanReport) -> Markup {
     }
 }
 
+/// The run's forecast in the sheets' own words: the predicted time with its band, then the
+/// clock and the initial-rate estimate.
 fn forecast_line(run: &RunReport) -> Markup {
     html! {
         @if let Some(f) = &run.forecast {
-            @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
-                div.forecast {
-                    "Expected: about " strong { (secs(t)) } " at " (format!("{:.0}", f.temperature_c)) " °C ("
-                    (secs(fast)) " to " (secs(slow)) " between " (format!("{:.0}", f.band_c[1])) " and " (format!("{:.0}", f.band_c[0]))
-                    " °C). A forecast, not a guarantee."
-                }
+            div.forecast {
+                @for line in crate::report::words::forecast_lines(f).iter().take(2) { div { (line) } }
             }
         }
     }
