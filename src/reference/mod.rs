@@ -7,3 +7,4 @@ pub mod formula;
 pub mod glassware;
 pub mod reagents;
 pub mod species;
+pub mod tolerance;
