@@ -950,3 +950,22 @@ fn the_volumes_overview_adds_up_to_each_runs_total() {
         .sum();
     approx::assert_relative_eq!(sum, 50.0, max_relative = 1e-9);
 }
+
+#[test]
+fn the_timing_line_tune_writes_as_toml_is_accepted_when_pasted_back() {
+    // The [timing] line of `tune -f toml`, pasted over the spec's, loads, and tuning again
+    // finds the same concentration inside the window.
+    let o = run("tune", PEROXIDE, &["-f", "toml"]);
+    assert_eq!(o.code, 0, "{}", o.stderr);
+    let line = o
+        .stdout
+        .lines()
+        .find(|l| l.starts_with("concentration = "))
+        .expect("a concentration line");
+    let spec = edit(PEROXIDE, "concentration = \"1.00 mM\"", line);
+    let again = run("tune", &spec, &["-f", "toml"]);
+    assert_eq!(again.code, 0, "{}", again.stderr);
+    assert!(again.stdout.contains(line), "{}", again.stdout);
+    let forecast = run("forecast", &spec, &[]);
+    assert_ne!(forecast.code, 2, "{}", forecast.stderr);
+}
