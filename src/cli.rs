@@ -205,6 +205,20 @@ impl From<SummaryArg> for SummaryFormat {
     }
 }
 
+/// Guard the output, build the bytes, write them: the one path of every command that writes.
+/// `build` returns the bytes and whether anything is flagged.
+fn guarded(
+    write: &WriteArgs,
+    inputs: &[&Path],
+    build: impl FnOnce() -> Result<(Vec<u8>, bool), Error>,
+) -> Result<i32, Error> {
+    let target = write.target();
+    target.guard(inputs)?;
+    let (bytes, flagged) = build()?;
+    target.write(&bytes, inputs)?;
+    Ok(exit(flagged))
+}
+
 fn exit(flagged: bool) -> i32 {
     if flagged {
         EXIT_FLAGGED
@@ -230,24 +244,18 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             spec,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        } => guarded(&write, &[&spec], || {
             let report = crate::plan(read_spec(&spec)?)?;
-            target.write(&export::export(&report, format.into()), &[&spec])?;
-            Ok(exit(report.flagged))
-        }
+            Ok((export::export(&report, format.into()), report.flagged))
+        }),
         Command::Stocks {
             spec,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        } => guarded(&write, &[&spec], || {
             let sheet = crate::stocks(read_spec(&spec)?)?;
-            target.write(&export::export_stocks(&sheet, format.into()), &[&spec])?;
-            Ok(EXIT_OK)
-        }
+            Ok((export::export_stocks(&sheet, format.into()), false))
+        }),
         Command::Cards {
             spec,
             per,
@@ -283,49 +291,37 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             }
             Ok(exit(report.flagged))
         }
-        Command::Chart { spec, write } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        Command::Chart { spec, write } => guarded(&write, &[&spec], || {
             let (svg, flagged) = crate::chart(read_spec(&spec)?)?;
-            target.write(svg.as_bytes(), &[&spec])?;
-            Ok(exit(flagged))
-        }
+            Ok((svg.into_bytes(), flagged))
+        }),
         Command::Fit {
             spec,
             times,
             orders,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec, &times])?;
+        } => guarded(&write, &[&spec, &times], || {
             let times_source = read_named(&times, "times file")?;
             let sheet = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
-            target.write(&export::export_fit(&sheet, format.into()), &[&spec, &times])?;
-            Ok(exit(sheet.flagged))
-        }
+            Ok((export::export_fit(&sheet, format.into()), sheet.flagged))
+        }),
         Command::Design {
             spec,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        } => guarded(&write, &[&spec], || {
             let sheet = crate::design(read_spec(&spec)?)?;
-            target.write(&export::export_design(&sheet, format.into()), &[&spec])?;
-            Ok(exit(sheet.flagged))
-        }
+            Ok((export::export_design(&sheet, format.into()), sheet.flagged))
+        }),
         Command::Tune {
             spec,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        } => guarded(&write, &[&spec], || {
             let sheet = crate::tune(read_spec(&spec)?)?;
-            target.write(&export::export_tune(&sheet, format.into()), &[&spec])?;
-            Ok(exit(!sheet.fits))
-        }
+            Ok((export::export_tune(&sheet, format.into()), !sheet.fits))
+        }),
         Command::Completions { shell } => {
             use clap::CommandFactory;
             let mut out = Vec::new();
@@ -337,13 +333,13 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             spec,
             format,
             write,
-        } => {
-            let target = write.target();
-            target.guard(&[&spec])?;
+        } => guarded(&write, &[&spec], || {
             let sheet = crate::forecast_only(read_spec(&spec)?)?;
-            target.write(&export::export_forecast(&sheet, format.into()), &[&spec])?;
-            Ok(exit(sheet.flagged))
-        }
+            Ok((
+                export::export_forecast(&sheet, format.into()),
+                sheet.flagged,
+            ))
+        }),
     }
 }
 
