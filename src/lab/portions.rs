@@ -238,8 +238,11 @@ type Part = Option<(f64, Delivery)>;
 /// Split `water` (L) into two deliverable parts that bring the vessels closest in volume.
 fn split_water(lab: &Lab, water: f64, whole: &Delivery, a: f64, b: f64) -> (Part, Part) {
     let devices = &lab.devices;
+    // The portions use the devices the solve chose for the water, so that the station's
+    // glassware list holds.
+    let allowed: Vec<usize> = whole.parts.iter().map(|p| p.0).collect();
     let mut candidates: Vec<f64> = vec![0.0, water];
-    for &d in &lab.water_devices {
+    for &d in &allowed {
         candidates.extend(devices[d].volumes().filter(|&x| x < water));
     }
     let mut best: Option<(f64, f64, Delivery, Delivery)> = None;
@@ -253,12 +256,12 @@ fn split_water(lab: &Lab, water: f64, whole: &Delivery, a: f64, b: f64) -> (Part
         let da = if x == water {
             Some(whole.clone())
         } else {
-            find_delivery(x, &lab.water_devices, devices)
+            find_delivery(x, &allowed, devices)
         };
         let db = if x == 0.0 {
             Some(whole.clone())
         } else {
-            find_delivery(rest, &lab.water_devices, devices)
+            find_delivery(rest, &allowed, devices)
         };
         if let (Some(da), Some(db)) = (da, db) {
             best = Some((diff, x, da, db));

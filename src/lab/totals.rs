@@ -1,7 +1,7 @@
 //! Stock to prepare: per stock, the volume used by every run, times replicates and stations,
 //! plus the overage, rounded up to a volumetric flask size.
 
-use crate::solve::Solution;
+use crate::solve::{Holder, Solution};
 use crate::spec::{Lab, Spec};
 
 #[derive(Debug, Clone, PartialEq)]
@@ -11,7 +11,9 @@ pub struct StockTotal {
     pub per_station_set: f64,
     /// L used by the whole lab: all runs × replicates × stations.
     pub used: f64,
-    /// L to prepare: used plus overage.
+    /// L one station spends rinsing and filling the devices that hold this stock.
+    pub dead_per_station: f64,
+    /// L to prepare: used plus overage, plus every station's dead volume.
     pub need: f64,
     /// Flask size (L) and how many of them to make up.
     pub flask: f64,
@@ -23,6 +25,19 @@ pub struct Totals {
     pub stocks: Vec<StockTotal>,
     /// L of water used by the whole lab as make-up (no overage added).
     pub water: f64,
+    /// L of water one station uses as make-up, and spends rinsing and filling its devices.
+    pub water_per_station: f64,
+    pub water_dead_per_station: f64,
+}
+
+/// What one station spends on rinsing and filling the devices that hold `holder`.
+fn dead_volume(lab: &Lab, solution: &Solution, holder: Holder) -> f64 {
+    solution
+        .station
+        .iter()
+        .filter(|d| d.holds.contains(&holder))
+        .map(|d| lab.devices[d.device].dead_volume)
+        .sum()
 }
 
 /// Smallest flask that holds `need`, or as many of the largest as it takes.
@@ -42,20 +57,27 @@ pub fn compute(spec: &Spec, lab: &Lab, solution: &Solution) -> Totals {
         .map(|&s| {
             let per_station_set: f64 = solution.runs.iter().map(|r| r.volume_of(s)).sum();
             let used = per_station_set * sets;
-            let need = used * (1.0 + lab.overage);
+            let dead_per_station = dead_volume(lab, solution, Holder::Stock(s));
+            let need = used * (1.0 + lab.overage) + dead_per_station * spec.stations as f64;
             let (flask, flask_count) = flask_for(need, &lab.flasks);
             StockTotal {
                 stock: s,
                 per_station_set,
                 used,
+                dead_per_station,
                 need,
                 flask,
                 flask_count,
             }
         })
         .collect();
-    let water = solution.runs.iter().map(|r| r.water().volume).sum::<f64>() * sets;
-    Totals { stocks, water }
+    let one_set = solution.runs.iter().map(|r| r.water().volume).sum::<f64>();
+    Totals {
+        stocks,
+        water: one_set * sets,
+        water_per_station: one_set * spec.replicates as f64,
+        water_dead_per_station: dead_volume(lab, solution, Holder::Water),
+    }
 }
 
 #[cfg(test)]

@@ -93,9 +93,39 @@ pub struct Device {
     pub max: f64,
     /// Volumetric pipets: how many fills one addition may take.
     pub max_fills: u32,
+    /// How many of this device each station has; `None`: as many as the plan needs.
+    pub per_station: Option<u32>,
+    /// A pipet that may serve more than one stock at a station, rinsed with the next stock
+    /// between them. Burets are never shared.
+    pub shared: bool,
+    /// Stock (L) a station spends on rinsing and filling this device, beyond what it delivers.
+    pub dead_volume: f64,
 }
 
 impl Device {
+    /// Stock (L) a station spends on rinsing and filling a device of this kind and size
+    /// before its first delivery, when the spec gives no `dead_volume` (common practice:
+    /// a buret is rinsed twice with about a tenth of its capacity; a pipet is rinsed with
+    /// about one fill in small portions; a piston pipette's tip is pre-wetted once; a
+    /// cylinder is rinsed once with about a tenth of its capacity).
+    pub fn default_dead_volume(kind: DeviceKind, nominal: f64) -> f64 {
+        match kind {
+            DeviceKind::Buret => 0.2 * nominal,
+            DeviceKind::VolumetricPipet | DeviceKind::GraduatedPipet => nominal,
+            DeviceKind::PistonPipette => nominal,
+            DeviceKind::GraduatedCylinder => 0.1 * nominal,
+        }
+    }
+
+    /// A device's own volume: a volumetric pipet's one fill, otherwise its capacity (L).
+    pub fn nominal(&self) -> f64 {
+        if self.is_volumetric() {
+            self.step
+        } else {
+            self.max
+        }
+    }
+
     pub fn is_volumetric(&self) -> bool {
         self.kind == DeviceKind::VolumetricPipet
     }
@@ -288,6 +318,9 @@ mod tests {
             min: 0.05e-3,
             max: 25e-3,
             max_fills: 1,
+            per_station: None,
+            shared: false,
+            dead_volume: 5e-3,
         }
     }
 
@@ -300,6 +333,9 @@ mod tests {
             min: ml * 1e-3,
             max: 2.0 * ml * 1e-3,
             max_fills: 2,
+            per_station: None,
+            shared: false,
+            dead_volume: ml * 1e-3,
         }
     }
 

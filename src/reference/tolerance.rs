@@ -141,6 +141,9 @@ mod tests {
             min: 0.0,
             max: ml * 1e-3,
             max_fills: 1,
+            per_station: None,
+            shared: false,
+            dead_volume: 0.0,
         }
     }
 

@@ -6,6 +6,7 @@ mod fit;
 mod forecast;
 pub mod page;
 mod pages;
+mod station;
 mod stocks;
 mod tune;
 pub mod words;
@@ -13,6 +14,7 @@ pub mod words;
 pub use design::{DesignSheet, DesignedRunReport, PrecisionReport};
 pub use fit::{FitOrder, FitResidual, FitSheet, Interval};
 pub use forecast::*;
+pub use station::{DeviceChoice, GlasswareItem, TrayItem};
 pub use stocks::*;
 pub use tune::{TuneSheet, TunedRun};
 
@@ -122,6 +124,9 @@ pub struct StockTotal {
     /// What one station uses: every run × replicates (before overage).
     #[serde(rename = "per_station_mL")]
     pub per_station_ml: f64,
+    /// Every station's rinsing and filling of the devices that hold it (included in mL).
+    #[serde(rename = "dead_volume_mL")]
+    pub dead_volume_ml: f64,
     #[serde(rename = "flask_mL")]
     pub flask_ml: f64,
     pub flask_count: u32,
@@ -172,6 +177,12 @@ pub struct PlanReport {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ionic_strength: Option<IonicReport>,
     pub stocks: Vec<StockInfo>,
+    /// What one station sets up: each device, how many, and what it holds.
+    pub glassware: Vec<GlasswareItem>,
+    /// The device chosen for each stock and the water, for every run, and why.
+    pub device_choices: Vec<DeviceChoice>,
+    /// Each bottle one station needs and its fill volume.
+    pub tray: Vec<TrayItem>,
     pub runs: Vec<RunReport>,
     pub stock_totals: Vec<StockTotal>,
     #[serde(rename = "water_total_mL")]
@@ -358,6 +369,9 @@ pub fn build(
         reaction: spec.prior.as_ref().map(|p| reaction_report(&p.reaction)),
         forecast_settings: spec.prior.as_ref().map(|p| settings_report(&p.settings)),
         warnings: forecast.map(|f| f.warnings.clone()).unwrap_or_default(),
+        glassware: station::glassware(lab, solution),
+        device_choices: station::choices(spec, lab, solution),
+        tray: station::tray(lab, totals, spec.replicates),
         runs,
         stock_totals: totals
             .stocks
@@ -368,6 +382,7 @@ pub fn build(
                 used_ml: ml(t.used),
                 one_set_ml: ml(t.per_station_set),
                 per_station_ml: ml(t.per_station_set * spec.replicates as f64),
+                dead_volume_ml: ml(t.dead_per_station * spec.stations as f64),
                 flask_ml: ml(t.flask),
                 flask_count: t.flask_count,
             })

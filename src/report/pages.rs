@@ -255,6 +255,7 @@ impl PlanReport {
         }
         volumes.push(Block::Table(Table::numeric(cols, rows)));
         sections.push(volumes);
+        sections.push(self.station_section());
 
         let of = self.runs.len();
         for (i, r) in self.runs.iter().enumerate() {
@@ -268,10 +269,95 @@ impl PlanReport {
         Page { title, sections }
     }
 
+    /// What one station sets up: the glassware list with the reason for each device, and the
+    /// tray of bottles with their fill volumes.
+    fn station_section(&self) -> Section {
+        let mut s = Section::new("Each station sets up");
+        let rows: Vec<Vec<String>> = self
+            .glassware
+            .iter()
+            .map(|g| {
+                let mut holds = g.holds.join(", ");
+                if g.rinse_between {
+                    holds.push_str(" (one pipet: rinse it with the next stock)");
+                }
+                vec![g.device.clone(), g.per_station.to_string(), holds]
+            })
+            .collect();
+        let align = vec![Align::Left, Align::Right, Align::Left];
+        s.push(Block::Subheading("Glassware".into()));
+        s.push(Block::Table(Table::with_align(
+            headers(&["device", "per station", "holds"]),
+            align,
+            rows,
+        )));
+        let items = self
+            .device_choices
+            .iter()
+            .map(|c| {
+                let mut details = Vec::new();
+                if !c.second_device_runs.is_empty() {
+                    details.push(format!(
+                        "another device in run(s): {}",
+                        c.second_device_runs.join(", ")
+                    ));
+                }
+                Item {
+                    text: match c.worst_u_pct {
+                        Some(u) => format!(
+                            "{}: {} (u up to {} %): {}",
+                            c.stock,
+                            c.device,
+                            sig(u, 2),
+                            c.why
+                        ),
+                        None => format!("{}: {}: {}", c.stock, c.device, c.why),
+                    },
+                    details,
+                }
+            })
+            .collect();
+        s.push(Block::Subheading("Why these devices".into()));
+        s.push(Block::List(items));
+        s.push(Block::Subheading("Tray".into()));
+        let rows: Vec<Vec<String>> = self
+            .tray
+            .iter()
+            .map(|t| {
+                vec![
+                    t.stock.clone(),
+                    format!("{:.1}", t.use_ml),
+                    format!("{:.1}", t.overage_ml),
+                    format!("{:.1}", t.dead_volume_ml),
+                    format!("{:.1}", t.fill_ml),
+                ]
+            })
+            .collect();
+        let mut align = vec![Align::Right; 5];
+        align[0] = Align::Left;
+        s.push(Block::Table(Table::with_align(
+            headers(&[
+                "bottle",
+                "use (mL)",
+                "overage (mL)",
+                "rinse and fill (mL)",
+                "fill (mL)",
+            ]),
+            align,
+            rows,
+        )));
+        s.push(Block::Detail(format!(
+            "use: every run x {} replicate(s); overage {} %; rinse and fill: what the devices holding it take before the first delivery.",
+            self.replicates,
+            sig(self.overage_pct, 3)
+        )));
+        s
+    }
+
     fn totals_section(&self) -> Section {
         let mut s = Section::new("Stock to prepare");
         s.para(format!(
-            "All runs x {} replicate(s) x {} station(s), plus {} % overage, rounded up to a volumetric flask.",
+            "All runs x {} replicate(s) x {} station(s), plus {} % overage, plus each station's rinse and fill, rounded up to a volumetric flask.",
             self.replicates, self.stations, sig(self.overage_pct, 3)
         ));
         let mut rows: Vec<Vec<String>> = self

@@ -15,10 +15,18 @@
 //! Before the integer model, a continuous model of the same run checks that the targets are
 //! reachable at all; when they are not, the reason is stated in the user's terms.
 
+mod assign;
 mod checks;
 mod explain;
+mod fast;
 mod milp;
 mod model;
+pub mod station;
+
+pub use assign::{units_needed, Assignment, Choice, Holder};
+use assign::Distinct;
+use rayon::prelude::*;
+pub use station::StationDevice;
 
 use crate::error::{Error, Result};
 use crate::reference::glassware::{find_delivery, find_delivery_in_two, Delivery, Device};
@@ -115,6 +123,10 @@ pub struct Solution {
     /// The ionic strength held in every run (mol/L), when one is held.
     pub ionic_target: Option<f64>,
     pub runs: Vec<RunSolution>,
+    /// The devices chosen for each stock and the water, and why.
+    pub assignment: Assignment,
+    /// What one station sets up: each device, how many, and what it holds.
+    pub station: Vec<StationDevice>,
 }
 
 /// Fixed parts of every run: the timing stock and fixed additions.
@@ -126,64 +138,153 @@ struct Constant {
     time_limit: f64,
 }
 
-/// Solve every run of the plan.
+/// Solve every run of the plan: choose the devices once ([`assign`]), then each distinct set
+/// of targets once, in parallel, and copy the recipe to runs that repeat it.
 pub fn solve(spec: &Spec, lab: &Lab) -> Result<Solution> {
     check_distinct_runs(spec)?;
     let constant = constant_additions(spec, lab)?;
     check_reachable_low(spec, lab)?;
     check_hold_reachable(spec, lab, &constant)?;
+    let (distinct, first_of) = distinct_runs(spec);
+    let assigned = assign::assign(spec, lab, &constant, &distinct)?;
+    let (narrow, constant) = (&assigned.lab, &assigned.constant);
+    let solve_all = |ionic: Option<f64>| -> Result<Vec<RunSolution>> {
+        distinct
+            .par_iter()
+            .map(|d| solve_assigned(spec, lab, narrow, &spec.runs[d.run], constant, ionic))
+            .collect::<Vec<_>>()
+            .into_iter()
+            .collect()
+    };
     let ionic_target = match lab.ionic.as_ref().map(|i| i.target) {
         None => None,
         Some(IonicTarget::Value(v)) => Some(v),
-        Some(IonicTarget::Max) => {
-            // First pass without the salt; hold every run at the largest value found.
-            let mut highest: f64 = 0.0;
-            let mut seen = std::collections::HashSet::new();
-            for run in &spec.runs {
-                if seen.insert(targets_key(run)) {
-                    let s = solve_run(spec, lab, run, &constant, None)?;
-                    highest = highest.max(s.ionic_strength);
-                }
-            }
-            Some(highest)
-        }
+        // First pass without the salt; hold every run at the largest value found.
+        Some(IonicTarget::Max) => Some(
+            solve_all(None)?
+                .iter()
+                .map(|s| s.ionic_strength)
+                .fold(0.0, f64::max),
+        ),
     };
-
+    let solved = solve_all(ionic_target)?;
     let mut runs: Vec<RunSolution> = Vec::with_capacity(spec.runs.len());
-    let mut seen: HashMap<Vec<(String, u64)>, usize> = HashMap::new();
-    for (i, run) in spec.runs.iter().enumerate() {
-        let key = targets_key(run);
-        if let Some(&first) = seen.get(&key) {
-            let mut copy = runs[first].clone();
-            copy.same_as = Some(first);
-            runs.push(copy);
-            continue;
+    for (i, &k) in first_of.iter().enumerate() {
+        let mut r = solved[k].clone();
+        if distinct[k].run != i {
+            r.same_as = Some(distinct[k].run);
         }
-        seen.insert(key, i);
-        runs.push(solve_run(spec, lab, run, &constant, ionic_target)?);
+        runs.push(r);
     }
 
     // Keep only stocks used somewhere; every run lists the same ones, in spec order.
     let used_stocks: Vec<usize> = (0..lab.stocks.len())
-        .filter(|&s| runs.iter().any(|r| r.volume_of(s) > 0.0))
+        .filter(|&s| solved.iter().any(|r| r.volume_of(s) > 0.0))
         .collect();
     for r in &mut runs {
         r.additions
             .retain(|a| a.stock.is_none_or(|s| used_stocks.contains(&s)));
     }
+    let station = station::glassware(lab, &solved);
+    station::check_counts(spec, lab, &station)?;
+    let mut assignment = assigned.assignment;
+    assignment
+        .choices
+        .retain(|c| matches!(c.holder, Holder::Water) || matches!(c.holder, Holder::Stock(s) if used_stocks.contains(&s)));
     Ok(Solution {
         used_stocks,
         ionic_target,
         runs,
+        assignment,
+        station,
     })
 }
 
+/// The distinct target sets (first run, how many share it) and each run's set.
+fn distinct_runs(spec: &Spec) -> (Vec<Distinct>, Vec<usize>) {
+    let mut distinct: Vec<Distinct> = Vec::new();
+    let mut seen: HashMap<Vec<(&str, u64)>, usize> = HashMap::with_capacity(spec.runs.len());
+    let first_of = spec
+        .runs
+        .iter()
+        .enumerate()
+        .map(|(i, run)| {
+            let k = *seen.entry(targets_key(run)).or_insert_with(|| {
+                distinct.push(Distinct { run: i, count: 0 });
+                distinct.len() - 1
+            });
+            distinct[k].count += 1;
+            k
+        })
+        .collect();
+    (distinct, first_of)
+}
+
+/// Solve a run with the assigned devices; when they cannot serve it within tolerance, solve it
+/// again with every allowed device and say which stock needed a second device.
+fn solve_assigned(
+    spec: &Spec,
+    full: &Lab,
+    narrow: &Lab,
+    run: &Run,
+    constant: &Constant,
+    ionic: Option<f64>,
+) -> Result<RunSolution> {
+    let first = solve_run(spec, narrow, run, constant, ionic);
+    let off = |r: &RunSolution| r.flags.iter().filter(|f| f.code == "off_target").count();
+    let retry = match &first {
+        Ok(r) => off(r) > 0,
+        Err(_) => true,
+    };
+    if !retry {
+        return first;
+    }
+    let Ok(mut second) = solve_run(spec, full, run, constant, ionic) else {
+        return first;
+    };
+    if let Ok(r) = &first {
+        if off(&second) >= off(r) {
+            return first;
+        }
+    }
+    let mut moved = Vec::new();
+    for a in &second.additions {
+        let allowed = match a.stock {
+            Some(s) => &narrow.stocks[s].devices,
+            None => &narrow.water_devices,
+        };
+        let others: Vec<&str> = a
+            .delivery
+            .parts
+            .iter()
+            .filter(|(d, _)| !allowed.contains(d))
+            .map(|&(d, _)| full.devices[d].name.as_str())
+            .collect();
+        if !others.is_empty() {
+            let who = a
+                .stock
+                .map_or("water".to_string(), |s| format!("'{}'", full.stocks[s].name));
+            moved.push(format!("{who} with '{}'", others.join("' + '")));
+        }
+    }
+    if !moved.is_empty() {
+        second.flags.push(Flag {
+            code: "second_device",
+            message: format!(
+                "this run needs a second device: {}; the device kept for the other runs cannot deliver its volume within tolerance",
+                moved.join(", ")
+            ),
+        });
+    }
+    Ok(second)
+}
+
 /// Runs with equal keys have identical targets and share one recipe.
-fn targets_key(run: &Run) -> Vec<(String, u64)> {
-    let mut key: Vec<(String, u64)> = run
+fn targets_key(run: &Run) -> Vec<(&str, u64)> {
+    let mut key: Vec<(&str, u64)> = run
         .targets
         .iter()
-        .map(|t| (t.species.clone(), t.concentration.to_bits()))
+        .map(|t| (t.species.as_str(), t.concentration.to_bits()))
         .collect();
     key.sort();
     key
@@ -370,6 +471,9 @@ fn solve_run(
     ionic: Option<f64>,
 ) -> Result<RunSolution> {
     let m = RunModel::new(spec, lab, run, constant, ionic);
+    if let Some(s) = fast::solve(&m, constant, ionic) {
+        return Ok(s);
+    }
     let solver_error = |e: ResolutionError| {
         match e {
         ResolutionError::Other(why) if why == TIMED_OUT => spec.source.error(

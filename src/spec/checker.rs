@@ -230,6 +230,14 @@ impl Checker<'_> {
         Ok(v)
     }
 
+    /// Zero or a positive value in the lab's range.
+    pub(super) fn non_negative(&self, q: &Q, kind: Kind, field: &str) -> Result<f64> {
+        if self.qty(q, kind, field)? == 0.0 {
+            return Ok(0.0);
+        }
+        self.positive(q, kind, field)
+    }
+
     pub(super) fn count(&self, v: &Option<Spanned<i64>>, field: &str, default: u32) -> Result<u32> {
         match v {
             None => Ok(default),

@@ -71,6 +71,35 @@ impl Checker<'_> {
                 "lower min",
             ));
         }
+        let per_station = match &r.per_station {
+            None => None,
+            Some(n) if (1..=100).contains(n.get_ref()) => Some(*n.get_ref() as u32),
+            Some(n) => {
+                return Err(self.err(
+                    n.span(),
+                    "per_station must be a whole number from 1 to 100",
+                    "out of range",
+                    "how many of this device each station has, e.g. per_station = 2; leave it out for as many as the plan needs",
+                ))
+            }
+        };
+        let shared = match &r.shared {
+            Some(s) if *s.get_ref() && kind == DeviceKind::Buret => {
+                return Err(self.err(
+                    s.span(),
+                    format!("device '{name}': a buret cannot be shared between stocks"),
+                    "not for a buret",
+                    "remove shared; a buret holds one stock for the whole lab (list more with per_station)",
+                ))
+            }
+            Some(s) => *s.get_ref(),
+            None => false,
+        };
+        let nominal = if kind == DeviceKind::VolumetricPipet { step } else { max };
+        let dead_volume = match &r.dead_volume {
+            None => Device::default_dead_volume(kind, nominal),
+            Some(q) => self.non_negative(q, Kind::Volume, "dead_volume")?,
+        };
         Ok(Device {
             name,
             kind,
@@ -79,6 +108,9 @@ impl Checker<'_> {
             min,
             max,
             max_fills,
+            per_station,
+            shared,
+            dead_volume,
         })
     }
 

@@ -264,6 +264,8 @@ pub struct Lab {
     pub stock_uncertainty: f64,
     pub stocks: Vec<Stock>,
     pub devices: Vec<Device>,
+    /// Where each device's name is written in the spec.
+    pub device_spans: Vec<Range<usize>>,
     pub water_devices: Vec<usize>,
     pub water_vessel: WaterVessel,
     pub mixing: Mixing,

@@ -23,6 +23,7 @@ struct LabSettings {
 /// The devices by name, for resolving `devices = [...]` lists.
 struct Shelf {
     devices: Vec<Device>,
+    spans: Vec<std::ops::Range<usize>>,
     index: HashMap<String, usize>,
 }
 
@@ -110,6 +111,7 @@ impl Checker<'_> {
                 stock_uncertainty: settings.stock_uncertainty,
                 stocks,
                 devices: shelf.devices,
+                device_spans: shelf.spans,
                 water_devices,
                 water_vessel,
                 mixing,
@@ -269,6 +271,7 @@ impl Checker<'_> {
     fn shelf(&self, raw: &RawSpec) -> Result<Shelf> {
         let mut devices: Vec<Device> = Vec::new();
         let mut device_index: HashMap<String, usize> = HashMap::new();
+        let mut spans = Vec::new();
         for d in &raw.device {
             let dev = self.device(d.get_ref(), d.span())?;
             if device_index
@@ -283,12 +286,14 @@ impl Checker<'_> {
                 ));
             }
             devices.push(dev);
+            spans.push(inner(d.get_ref().name.span(), &self.src.text));
         }
         if devices.is_empty() && self.purpose == Purpose::Plan {
             return Err(self.err(self.end(), "the spec lists no glassware", "no [[device]] in the spec", "add at least one [[device]], e.g. a buret: kind = \"buret\", capacity = \"25 mL\", graduation = \"0.05 mL\""));
         }
         Ok(Shelf {
             devices,
+            spans,
             index: device_index,
         })
     }

@@ -186,6 +186,9 @@ pub(crate) struct RawDevice {
     pub(crate) min: Option<Q>,
     pub(crate) class: Option<Name>,
     pub(crate) fills: Option<Spanned<i64>>,
+    pub(crate) per_station: Option<Spanned<i64>>,
+    pub(crate) shared: Option<Spanned<bool>>,
+    pub(crate) dead_volume: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]
