@@ -5,6 +5,7 @@ use clockprep::kinetics::RunKinetics;
 use clockprep::reference::equation::parse_equation;
 use clockprep::spec::{Reaction, Term, Visible};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use clockprep::error::SpecSource;
 use std::hint::black_box;
 
 fn bromate() -> RunKinetics {
@@ -39,6 +40,28 @@ fn bromate() -> RunKinetics {
     RunKinetics::new(&reaction, &c0, 1e-4).unwrap()
 }
 
+/// The peroxide demo's runs repeated to `n` (each renamed, its peroxide varied), forecast and
+/// built into a sheet: the cost should be linear in the number of runs.
+fn many_runs(n: usize) -> (clockprep::spec::Spec, Vec<Vec<(String, f64)>>) {
+    let text = include_str!("../plans/willow-creek-peroxide-forecast.toml");
+    let mut spec = clockprep::spec::load_for(
+        SpecSource::new("bench.toml", text),
+        clockprep::spec::Purpose::Forecast,
+    )
+    .unwrap();
+    let base = spec.runs.clone();
+    spec.runs = (0..n)
+        .map(|i| {
+            let mut r = base[i % base.len()].clone();
+            r.name = format!("run {i}");
+            r.targets[0].concentration *= 1.0 + (i % 97) as f64 * 1e-3;
+            r
+        })
+        .collect();
+    let initial = spec.runs.iter().map(|r| r.target_concentrations()).collect();
+    (spec, initial)
+}
+
 fn bench(c: &mut Criterion) {
     let run = bromate();
     let mut g = c.benchmark_group("forecast");
@@ -52,6 +75,20 @@ fn bench(c: &mut Criterion) {
             (r.at(291.15), r.at(294.15), r.at(297.15))
         })
     });
+    g.finish();
+    let mut g = c.benchmark_group("forecast-only runs");
+    g.sample_size(10);
+    for n in [10_000usize, 100_000] {
+        let (spec, initial) = many_runs(n);
+        let prior = spec.prior.as_ref().unwrap();
+        g.throughput(Throughput::Elements(n as u64));
+        g.bench_function(format!("{n} runs"), |b| {
+            b.iter(|| {
+                let f = clockprep::kinetics::forecast::forecast(&spec, prior, black_box(&initial));
+                clockprep::report::build_forecast(&spec, prior, &f)
+            })
+        });
+    }
     g.finish();
 }
 

@@ -61,26 +61,33 @@ fn refuses_text(command: &str, spec: &str, expect: &str) {
 
 #[test]
 fn too_many_distinct_runs_to_plan_are_refused_naming_the_first_over() {
-    // The bromate demo's reference run, its iodide varied in 101 steps of 0.01 mM.
+    // The bromate demo's reference run, its iodide varied in 1001 steps of 0.001 mM.
     let mut s = BROMATE.split("[[run]]").next().unwrap().to_string();
-    for i in 0..101 {
+    for i in 0..1001 {
         s.push_str(&format!(
-            "[[run]]\nname = \"r{i}\"\ntargets = {{ \"I-\" = \"{:.2} mM\", \"BrO3-\" = \"8.00 mM\", \"H+\" = \"20.0 mM\" }}\n\n",
-            2.0 + i as f64 * 0.01
+            "[[run]]\nname = \"r{i}\"\ntargets = {{ \"I-\" = \"{:.3} mM\", \"BrO3-\" = \"8.00 mM\", \"H+\" = \"20.0 mM\" }}\n\n",
+            2.0 + i as f64 * 0.001
         ));
     }
     refuses_text(
         "plan",
         &s,
-        "run 'r100' is distinct set of targets number 101; a plan solves at most 100",
+        "run 'r1000' is distinct set of targets number 1001; a plan solves at most 1000",
     );
 }
 
 #[test]
 fn a_solve_past_its_time_limit_is_refused_naming_the_run() {
+    // An acidified bromate stock shares H+ with the acid stock, so the runs go to the
+    // integer model (the rounding shortcut needs one stock per target).
     let dir = tempfile::tempdir().unwrap();
     let spec = dir.path().join("spec.toml");
-    std::fs::write(&spec, BROMATE).unwrap();
+    let text = BROMATE.replacen(
+        "[[device]]",
+        "[[stock]]\nname = \"acid bromate\"\ncontains = { \"BrO3-\" = \"0.0400 M\", \"K+\" = \"0.0400 M\", \"H+\" = \"0.100 M\", \"Cl-\" = \"0.100 M\" }\n\n[[device]]",
+        1,
+    );
+    std::fs::write(&spec, text).unwrap();
     let o = assert_cmd::Command::cargo_bin("clockprep")
         .unwrap()
         .env("CLOCKPREP_SOLVE_TIMEOUT", "0")

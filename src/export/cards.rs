@@ -59,10 +59,11 @@ fn per_page(report: &PlanReport, per: Per) -> usize {
 
 /// Pages the cards take: known from the layout alone.
 pub fn pages(report: &PlanReport, per: Per) -> usize {
+    // Each set of cards opens with the station's set-up card.
     let cards = match per {
-        Per::Run => report.runs.len(),
+        Per::Run => 1 + report.runs.len(),
         Per::Station => {
-            report.stations as usize * report.runs.len().div_ceil(RUNS_PER_STATION_CARD)
+            report.stations as usize * (1 + report.runs.len().div_ceil(RUNS_PER_STATION_CARD))
         }
     };
     cards.div_ceil(per_page(report, per))
@@ -157,6 +158,53 @@ fn flag_lines(run: &RunReport) -> Markup {
     html! {
         @for f in run_flags(run) {
             div.flag { "Check before class (" (f.code) "): " (f.message) }
+        }
+    }
+}
+
+/// What a station sets up before its first run: the glassware list and the tray.
+fn setup_card(report: &PlanReport, station: Option<u32>, card: usize, cards: usize) -> Markup {
+    html! {
+        div.card {
+            div.head {
+                div {
+                    div.plan { (report.title) " · card " (card) " of " (cards) }
+                    div.run { "Station set-up" }
+                }
+                div.station {
+                    @if let Some(s) = station { "Station " (s) " of " (report.stations) } @else { "Station ______" }
+                }
+            }
+            div.vessels {
+                div {
+                    table {
+                        tr { th { "glassware" } th { "how many" } th { "holds" } }
+                        @for g in &report.glassware {
+                            tr {
+                                td { (g.device) }
+                                td.n { (g.per_station) }
+                                td {
+                                    (g.holds.join(", "))
+                                    @if g.rinse_between { " (one pipet: rinse it with the next stock)" }
+                                }
+                            }
+                        }
+                    }
+                }
+                div {
+                    table {
+                        tr { th { "tray: bottle" } th { "fill (mL)" } th { "ready" } }
+                        @for t in &report.tray {
+                            tr { td { (t.stock) } td.n { (format!("{:.1}", t.fill_ml)) } td {} }
+                        }
+                    }
+                }
+            }
+            div.pour {
+                "Fill: every run × " (report.replicates) " trial(s), plus " (crate::report::words::sig(report.overage_pct, 3)) " % overage, plus what rinsing and filling the glassware takes. Label every bottle and device with the stock it holds; a buret keeps its stock for the whole lab."
+            }
+            (cautions(report))
+            div.end { "end of card " (card) }
         }
     }
 }
@@ -261,17 +309,20 @@ pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
     let mut cards: Vec<Markup> = Vec::new();
     match per {
         Per::Run => {
-            let total = numbered.len();
+            let total = numbered.len() + 1;
+            cards.push(setup_card(report, None, 1, total));
             for (k, (n, run)) in numbered.iter().enumerate() {
-                cards.push(run_card(report, run, *n, k + 1, total, dec));
+                cards.push(run_card(report, run, *n, k + 2, total, dec));
             }
         }
         Per::Station => {
             let chunks: Vec<&[(usize, &RunReport)]> =
                 numbered.chunks(RUNS_PER_STATION_CARD).collect();
-            let total = report.stations as usize * chunks.len();
+            let total = report.stations as usize * (chunks.len() + 1);
             let mut k = 0;
             for station in 1..=report.stations {
+                k += 1;
+                cards.push(setup_card(report, Some(station), k, total));
                 for chunk in &chunks {
                     k += 1;
                     cards.push(station_card(report, station, chunk, k, total, dec));

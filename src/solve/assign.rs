@@ -191,6 +191,8 @@ struct HolderData {
 /// the constant additions delivered with them, and per run the holders that fall back.
 pub(super) struct Assigned {
     pub(super) assignment: Assignment,
+    /// Per run (spec index), the stocks whose chosen way cannot serve it.
+    pub(super) forced: BTreeMap<usize, Vec<usize>>,
     pub(super) lab: Lab,
     pub(super) constant: Constant,
 }
@@ -796,6 +798,7 @@ fn build(
         additions: constant.additions.clone(),
         volume: constant.volume,
         time_limit: constant.time_limit,
+        shortcut: constant.shortcut,
     };
     for a in &mut constant.additions {
         let s = a.stock.expect("constant additions are stocks");
@@ -804,7 +807,16 @@ fn build(
         }
     }
     choices.sort_by_key(|c| c.holder);
+    let mut forced: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
+    for c in &choices {
+        if let Holder::Stock(s) = c.holder {
+            for &r in &c.forced {
+                forced.entry(r).or_default().push(s);
+            }
+        }
+    }
     Ok(Assigned {
+        forced,
         assignment: Assignment { choices },
         lab: narrow,
         constant,

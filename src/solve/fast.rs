@@ -8,8 +8,9 @@
 //! grid point minimises the largest deviation and the sum at once. The held ionic strength is
 //! the one goal that couples them (the model may move a reactant inside the largest deviation
 //! to help the salt), so the shortcut is taken only when the salt lands exactly or the
-//! reactants leave no room (all exact). Anything else — a stock with two devices, shared
-//! species, water the devices cannot make up, a recipe outside tolerance — goes to the model.
+//! reactants leave no room (all exact), or else after an exact search of those moves. Anything
+//! else — a stock with two devices, shared species, water the devices cannot make up — goes to
+//! the model. A recipe outside tolerance is still the optimum; the caller flags or explains it.
 
 use super::*;
 use crate::reference::glassware::Device;
@@ -37,6 +38,105 @@ fn nearest_count(dev: &Device, ml: f64, allow_zero: bool) -> Option<u32> {
         consider(0);
     }
     best.map(|b| b.1)
+}
+
+/// The cap the model puts on a tier once the tier before it is solved.
+fn slack(z: f64) -> f64 {
+    z + 1e-9 + z * 1e-9
+}
+
+/// Most combinations of reactant volumes [`held_search`] looks at before leaving the run to
+/// the model.
+const SEARCH_LIMIT: usize = 20_000;
+
+/// The model's tiers, by enumeration, for a separable run with a held ionic strength: every
+/// reactant volume whose own deviation stays within the best largest deviation `z1`, the salt
+/// nearest for each, then the least ionic deviation, then the least sum of deviations.
+fn held_search(
+    m: &RunModel,
+    single: &[usize],
+    owner: &[Option<usize>],
+    salt: usize,
+    z1: f64,
+) -> Option<Vec<u32>> {
+    let lab = m.lab;
+    let total = m.total_ml();
+    let step = |j: usize| lab.devices[single[j]].step * 1e3;
+    // Per reactant: the counts inside the cap, with their deviations.
+    let mut choices: Vec<Vec<(u32, f64)>> = Vec::new();
+    let mut size = 1usize;
+    for (j, g) in owner.iter().enumerate() {
+        let Some(g) = g else {
+            choices.push(vec![(0, 0.0)]);
+            continue;
+        };
+        let row = &m.goals[*g];
+        let dev = &lab.devices[single[j]];
+        let (lo, hi) = dev.count_range();
+        let ideal = (row.target * total - row.constant) / row.coeffs[j];
+        let reach = slack(z1) * row.target * total / row.coeffs[j];
+        let from = ((ideal - reach) / step(j)).floor().max(lo as f64) as u32;
+        let to = ((ideal + reach) / step(j)).ceil().min(hi as f64) as u32;
+        let list: Vec<(u32, f64)> = (from..=to)
+            .map(|n| {
+                let d = ((row.coeffs[j] * n as f64 * step(j) + row.constant) / (total * row.target)
+                    - 1.0)
+                    .abs();
+                (n, d)
+            })
+            .filter(|(_, d)| *d <= slack(z1))
+            .collect();
+        size = size.saturating_mul(list.len().max(1));
+        choices.push(list);
+    }
+    if size > SEARCH_LIMIT || choices.iter().any(|c| c.is_empty()) {
+        return None;
+    }
+    let row = m.goals.iter().find(|g| g.ionic)?;
+    let salt_dev = lab.devices.get(single[salt])?;
+    // (counts, ionic deviation, sum of deviations)
+    let mut all: Vec<(Vec<u32>, f64, f64)> = Vec::with_capacity(size);
+    let mut idx = vec![0usize; choices.len()];
+    loop {
+        let mut counts: Vec<u32> = idx.iter().zip(&choices).map(|(&i, c)| c[i].0).collect();
+        let species_sum: f64 = idx
+            .iter()
+            .zip(&choices)
+            .enumerate()
+            .filter(|(j, _)| owner[*j].is_some())
+            .map(|(_, (&i, c))| c[i].1)
+            .sum();
+        let rest: f64 = row.constant
+            + (0..counts.len())
+                .filter(|&k| k != salt)
+                .map(|k| row.coeffs[k] * counts[k] as f64 * step(k))
+                .sum::<f64>();
+        let ideal = (row.target * total - rest) / row.coeffs[salt];
+        counts[salt] = nearest_count(salt_dev, ideal.max(0.0), true)?;
+        let ionic =
+            ((rest + row.coeffs[salt] * counts[salt] as f64 * step(salt)) / (total * row.target)
+                - 1.0)
+                .abs();
+        all.push((counts, ionic, species_sum + ionic));
+        // Next combination.
+        let mut k = 0;
+        loop {
+            if k == idx.len() {
+                let z2 = all.iter().map(|a| a.1).fold(f64::INFINITY, f64::min);
+                return all
+                    .into_iter()
+                    .filter(|a| a.1 <= slack(z2))
+                    .min_by(|a, b| a.2.total_cmp(&b.2))
+                    .map(|a| a.0);
+            }
+            idx[k] += 1;
+            if idx[k] < choices[k].len() {
+                break;
+            }
+            idx[k] = 0;
+            k += 1;
+        }
+    }
 }
 
 /// The run's recipe by rounding, or `None` when the integer model must decide.
@@ -111,28 +211,25 @@ pub(super) fn solve(m: &RunModel, constant: &Constant, ionic: Option<f64>) -> Op
         let ideal = (row.target * total - rest) / per;
         counts[j] = nearest_count(&lab.devices[single[j]], ideal.max(0.0), true)?;
         let dev = ((rest + per * ml_of(j, &counts)) / (total * row.target) - 1.0).abs();
-        // The model could trade reactant deviation for the salt's only when both are off.
+        // Both off: the model may move a reactant inside the largest deviation to help the
+        // salt. Search those moves exactly.
         if dev > 1e-12 && worst_species > 1e-12 {
-            return None;
+            counts = held_search(m, &single, &owner, j, worst_species)?;
         }
-        if dev > lab.tolerance {
-            return None;
-        }
-    }
-    if worst_species > lab.tolerance {
-        return None;
     }
     let mut additions = constant.additions.clone();
     for (j, &s) in m.vary.iter().enumerate() {
-        if counts[j] == 0 {
-            continue;
-        }
+        // A stock not needed in this run is listed with nothing added, as the model does.
         let d = single[j];
         additions.push(Addition {
             stock: Some(s),
             volume: counts[j] as f64 * lab.devices[d].step,
-            delivery: Delivery {
-                parts: vec![(d, counts[j])],
+            delivery: if counts[j] == 0 {
+                Delivery::none()
+            } else {
+                Delivery {
+                    parts: vec![(d, counts[j])],
+                }
             },
         });
     }

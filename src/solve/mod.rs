@@ -136,13 +136,26 @@ struct Constant {
     additions: Vec<Addition>,
     volume: f64,
     time_limit: f64,
+    /// Take the rounding shortcut ([`fast`]) where it applies.
+    shortcut: bool,
 }
 
 /// Solve every run of the plan: choose the devices once ([`assign`]), then each distinct set
 /// of targets once, in parallel, and copy the recipe to runs that repeat it.
 pub fn solve(spec: &Spec, lab: &Lab) -> Result<Solution> {
+    solve_mode(spec, lab, true)
+}
+
+/// The same solve with every run through the integer model, never the rounding shortcut: the
+/// reference the shortcut is tested against.
+pub fn solve_by_model(spec: &Spec, lab: &Lab) -> Result<Solution> {
+    solve_mode(spec, lab, false)
+}
+
+fn solve_mode(spec: &Spec, lab: &Lab, shortcut: bool) -> Result<Solution> {
     check_distinct_runs(spec)?;
-    let constant = constant_additions(spec, lab)?;
+    let mut constant = constant_additions(spec, lab)?;
+    constant.shortcut = shortcut;
     check_reachable_low(spec, lab)?;
     check_hold_reachable(spec, lab, &constant)?;
     let (distinct, first_of) = distinct_runs(spec);
@@ -151,7 +164,11 @@ pub fn solve(spec: &Spec, lab: &Lab) -> Result<Solution> {
     let solve_all = |ionic: Option<f64>| -> Result<Vec<RunSolution>> {
         distinct
             .par_iter()
-            .map(|d| solve_assigned(spec, lab, narrow, &spec.runs[d.run], constant, ionic))
+            .map(|d| {
+                let run = &spec.runs[d.run];
+                let forced = assigned.forced.get(&d.run).map_or(&[][..], |v| v.as_slice());
+                solve_assigned(spec, lab, narrow, run, constant, ionic, forced)
+            })
             .collect::<Vec<_>>()
             .into_iter()
             .collect()
@@ -220,8 +237,10 @@ fn distinct_runs(spec: &Spec) -> (Vec<Distinct>, Vec<usize>) {
     (distinct, first_of)
 }
 
-/// Solve a run with the assigned devices; when they cannot serve it within tolerance, solve it
-/// again with every allowed device and say which stock needed a second device.
+/// Solve a run with the assigned devices; when they cannot serve it within tolerance (the
+/// assignment said so for the `forced` stocks, or the solve fails), solve it again with those
+/// stocks (or, after a failure, every stock and the water) back on all their allowed devices,
+/// and say which stock needed a second device.
 fn solve_assigned(
     spec: &Spec,
     full: &Lab,
@@ -229,17 +248,30 @@ fn solve_assigned(
     run: &Run,
     constant: &Constant,
     ionic: Option<f64>,
+    forced: &[usize],
 ) -> Result<RunSolution> {
     let first = solve_run(spec, narrow, run, constant, ionic);
     let off = |r: &RunSolution| r.flags.iter().filter(|f| f.code == "off_target").count();
-    let retry = match &first {
-        Ok(r) => off(r) > 0,
-        Err(_) => true,
+    let widen: Vec<usize> = match &first {
+        Ok(r) if off(r) > 0 => forced.to_vec(),
+        Ok(_) => return first,
+        Err(_) => (0..full.stocks.len()).collect(),
     };
-    if !retry {
+    // With nothing narrowed, the full lists cannot do better.
+    let mut wide = narrow.clone();
+    let mut changed = false;
+    for s in widen {
+        changed |= wide.stocks[s].devices != full.stocks[s].devices;
+        wide.stocks[s].devices = full.stocks[s].devices.clone();
+    }
+    if first.is_err() {
+        changed |= wide.water_devices != full.water_devices;
+        wide.water_devices = full.water_devices.clone();
+    }
+    if !changed {
         return first;
     }
-    let Ok(mut second) = solve_run(spec, full, run, constant, ionic) else {
+    let Ok(mut second) = solve_run(spec, &wide, run, constant, ionic) else {
         return first;
     };
     if let Ok(r) = &first {
@@ -425,6 +457,7 @@ fn constant_additions(spec: &Spec, lab: &Lab) -> Result<Constant> {
         additions,
         volume,
         time_limit: time_limit(),
+        shortcut: true,
     })
 }
 
@@ -471,9 +504,17 @@ fn solve_run(
     ionic: Option<f64>,
 ) -> Result<RunSolution> {
     let m = RunModel::new(spec, lab, run, constant, ionic);
-    if let Some(s) = fast::solve(&m, constant, ionic) {
-        return Ok(s);
-    }
+    // The rounding shortcut, where it applies, is the integer model's optimum; within
+    // tolerance nothing more is needed.
+    let shortcut = constant
+        .shortcut
+        .then(|| fast::solve(&m, constant, ionic))
+        .flatten();
+    let within = |s: &RunSolution| s.goals.iter().all(|g| g.deviation.abs() <= lab.tolerance);
+    let shortcut = match shortcut {
+        Some(s) if within(&s) => return Ok(s),
+        other => other,
+    };
     let solver_error = |e: ResolutionError| {
         match e {
         ResolutionError::Other(why) if why == TIMED_OUT => spec.source.error(
@@ -506,20 +547,25 @@ fn solve_run(
         return Err(explain_unreachable(&m, best));
     }
     let ideal = relaxed.volumes_ml;
-    let outcome = match solve_tiers(&m, Relax::Integer) {
-        Ok(o) => o,
-        Err(ResolutionError::Infeasible) => return Err(explain_integer_infeasible(&m, &ideal)),
-        Err(e) => return Err(solver_error(e)),
+    let solution = match shortcut {
+        Some(s) => s,
+        None => {
+            let outcome = match solve_tiers(&m, Relax::Integer) {
+                Ok(o) => o,
+                Err(ResolutionError::Infeasible) => {
+                    return Err(explain_integer_infeasible(&m, &ideal))
+                }
+                Err(e) => return Err(solver_error(e)),
+            };
+            let mut additions = constant.additions.clone();
+            additions.extend(outcome.additions.into_iter().filter(|a| a.stock.is_some()));
+            additions.sort_by_key(|a| a.stock);
+            // Water last; recompute from the delivered volumes so the sum is exact.
+            let water = find_water(&m, &additions)?;
+            additions.push(water);
+            evaluate(lab, run, additions, ionic)
+        }
     };
-
-    let mut additions = constant.additions.clone();
-    additions.extend(outcome.additions.into_iter().filter(|a| a.stock.is_some()));
-    additions.sort_by_key(|a| a.stock);
-    // Water last; recompute from the delivered volumes so the sum is exact.
-    let water = find_water(&m, &additions)?;
-    additions.push(water);
-
-    let solution = evaluate(lab, run, additions, ionic);
     let worst = solution
         .goals
         .iter()

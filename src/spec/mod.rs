@@ -65,7 +65,7 @@ pub mod limits {
     /// `[[run]]`s in one spec.
     pub const RUNS: usize = 5_000;
     /// Distinct target sets that `plan` solves (runs with identical targets share one solve).
-    pub const DISTINCT_RUNS: usize = 100;
+    pub const DISTINCT_RUNS: usize = 1_000;
     /// `[[stock]]`s and `[[device]]`s, each.
     pub const STOCKS: usize = 100;
     pub const DEVICES: usize = 100;
