@@ -154,17 +154,21 @@ fn cards_print_on_both_papers_without_splitting_or_overflowing() {
                 "{what}: {info}"
             );
             // No card is cut by a page break: its first and last lines are on the same page.
+            // Each set of cards opens with a station set-up card.
             let cards = if per == "run" {
-                report.runs.len()
+                report.runs.len() + 1
             } else {
-                report.stations as usize
+                report.stations as usize * (1 + report.runs.len().div_ceil(6))
             };
             let mut found = 0;
             for page in 1..=expected {
                 let text = page_text(&pdf, page);
                 for k in 1..=cards {
                     let head = text.contains(&format!("card {k} of {cards}"));
-                    let end = text.contains(&format!("end of card {k}"));
+                    // Whole words: "end of card 1" is also the start of "end of card 10".
+                    let end = text
+                        .split(|c: char| !c.is_ascii_alphanumeric() && c != ' ')
+                        .any(|w| w.trim() == format!("end of card {k}"));
                     assert_eq!(head, end, "{what}: card {k} split across page {page}");
                     if head {
                         found += 1;

@@ -495,7 +495,7 @@ impl StockSheet {
         let mut head = Section::new(title.clone());
         head.para(format!("Spec: {}", self.spec));
         head.para(format!(
-            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, in volumetric flasks.",
+            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in volumetric flasks.",
             self.stations, self.replicates, sig(self.overage_pct, 3)
         ));
         let rows: Vec<Vec<String>> = self
