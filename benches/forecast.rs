@@ -1,11 +1,11 @@
 //! Forecast throughput: one clock-time forecast (clock integral plus the visible-colour wait)
 //! for a compiled run, and the band (three temperatures). Forecasts per second = 1 / time.
 
+use clockprep::error::SpecSource;
 use clockprep::kinetics::RunKinetics;
 use clockprep::reference::equation::parse_equation;
 use clockprep::spec::{Reaction, Term, Visible};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
-use clockprep::error::SpecSource;
 use std::hint::black_box;
 
 fn bromate() -> RunKinetics {
@@ -58,7 +58,11 @@ fn many_runs(n: usize) -> (clockprep::spec::Spec, Vec<Vec<(String, f64)>>) {
             r
         })
         .collect();
-    let initial = spec.runs.iter().map(|r| r.target_concentrations()).collect();
+    let initial = spec
+        .runs
+        .iter()
+        .map(|r| r.target_concentrations())
+        .collect();
     (spec, initial)
 }
 

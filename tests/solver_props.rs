@@ -139,3 +139,163 @@ proptest! {
         }
     }
 }
+
+/// A plan whose runs the rounding shortcut solves: two single-species stocks, each on its own
+/// device, and (sometimes) an ionic strength held with a salt.
+#[derive(Debug, Clone)]
+struct ShortcutCase {
+    /// Graduation (mL) of the device of A, of B, and of the salt's.
+    grads: [f64; 3],
+    c_stock: [f64; 2],
+    hold: Option<f64>,
+    /// Targets (M) of A and B per run.
+    runs: Vec<[f64; 2]>,
+}
+
+fn shortcut_case() -> impl Strategy<Value = ShortcutCase> {
+    (
+        [
+            prop_oneof![Just(0.01), Just(0.05), Just(0.1)],
+            prop_oneof![Just(0.02), Just(0.05), Just(0.1)],
+            prop_oneof![Just(0.01), Just(0.05), Just(0.1)],
+        ],
+        [0.05f64..0.2, 0.05f64..0.2],
+        prop::option::of(0.12f64..0.2),
+        prop::collection::vec([0.004f64..0.02, 0.004f64..0.02], 1..6),
+    )
+        .prop_map(|(grads, c_stock, hold, runs)| ShortcutCase {
+            grads,
+            c_stock,
+            hold,
+            runs,
+        })
+}
+
+fn shortcut_text(c: &ShortcutCase) -> String {
+    let mut s = format!(
+        r#"[plan]
+title = "shortcut case"
+total_volume = "50 mL"
+tolerance = "50 %"
+
+[timing]
+species = "S2O3^2-"
+concentration = "0.100 mM"
+
+[mixing]
+keep_apart = [["I-", "Cs+"]]
+
+[[stock]]
+name = "A"
+contains = {{ "I-" = "{a:e} M", "Na+" = "{a:e} M" }}
+devices = ["dev A"]
+
+[[stock]]
+name = "B"
+contains = {{ "Cs+" = "{b:e} M", "Cl-" = "{b:e} M" }}
+devices = ["dev B"]
+
+[[stock]]
+name = "thio"
+contains = {{ "S2O3^2-" = "0.005 M", "Na+" = "0.01 M" }}
+devices = ["water buret"]
+
+[[stock]]
+name = "salt"
+contains = {{ "K+" = "1.00 M", "NO3-" = "1.00 M" }}
+devices = ["dev salt"]
+
+[[device]]
+name = "dev A"
+kind = "buret"
+capacity = "50 mL"
+graduation = "{ga} mL"
+
+[[device]]
+name = "dev B"
+kind = "graduated pipet"
+capacity = "25 mL"
+graduation = "{gb} mL"
+
+[[device]]
+name = "dev salt"
+kind = "graduated pipet"
+capacity = "10 mL"
+graduation = "{gs} mL"
+
+[[device]]
+name = "water buret"
+kind = "buret"
+capacity = "50 mL"
+graduation = "0.01 mL"
+
+[water]
+devices = ["water buret"]
+"#,
+        a = c.c_stock[0],
+        b = c.c_stock[1],
+        ga = c.grads[0],
+        gb = c.grads[1],
+        gs = c.grads[2],
+    );
+    if let Some(h) = c.hold {
+        s.push_str(&format!(
+            "\n[ionic_strength]\nhold = \"{h:e} M\"\nusing = \"salt\"\n"
+        ));
+    }
+    for (i, [ta, tb]) in c.runs.iter().enumerate() {
+        let ta = ta.min(0.35 * c.c_stock[0]);
+        let tb = tb.min(0.35 * c.c_stock[1]);
+        s.push_str(&format!(
+            "\n[[run]]\nname = \"r{i}\"\ntargets = {{ \"I-\" = \"{ta:e} M\", \"Cs+\" = \"{tb:e} M\" }}\n"
+        ));
+    }
+    s
+}
+
+/// The model's lexicographic objective of one solved run: the largest target deviation, the
+/// held ionic strength's, and the sum of all.
+fn objective(r: &clockprep::solve::RunSolution) -> (f64, f64, f64) {
+    let species = r
+        .goals
+        .iter()
+        .filter(|g| g.label != "ionic strength")
+        .map(|g| g.deviation.abs())
+        .fold(0.0, f64::max);
+    let ionic = r
+        .goals
+        .iter()
+        .filter(|g| g.label == "ionic strength")
+        .map(|g| g.deviation.abs())
+        .fold(0.0, f64::max);
+    let sum = r.goals.iter().map(|g| g.deviation.abs()).sum();
+    (species, ionic, sum)
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 128, ..ProptestConfig::default() })]
+
+    /// The rounding shortcut (and its exact search under a held ionic strength) reaches the
+    /// integer model's optimum: the same objective, tier by tier, on every run.
+    #[test]
+    fn the_rounding_shortcut_matches_the_integer_model(c in shortcut_case()) {
+        let text = shortcut_text(&c);
+        let spec = clockprep::spec::load(SpecSource::new("prop.toml", text.clone())).unwrap();
+        let lab = spec.lab.as_ref().unwrap();
+        let fast = clockprep::solve::solve(&spec, lab);
+        let model = clockprep::solve::solve_by_model(&spec, lab);
+        match (fast, model) {
+            (Ok(f), Ok(m)) => {
+                for (a, b) in f.runs.iter().zip(&m.runs) {
+                    let (fa, fb) = (objective(a), objective(b));
+                    // The model's tiers are capped with a slack of 1e-9 (absolute and relative).
+                    prop_assert!((fa.0 - fb.0).abs() <= 2e-9, "largest {fa:?} vs {fb:?}\n{text}");
+                    prop_assert!((fa.1 - fb.1).abs() <= 2e-9, "ionic {fa:?} vs {fb:?}\n{text}");
+                    prop_assert!((fa.2 - fb.2).abs() <= 1e-8, "sum {fa:?} vs {fb:?}\n{text}");
+                }
+            }
+            (Err(_), Err(_)) => {}
+            (f, m) => prop_assert!(false, "one solved, one refused: {:?} / {:?}\n{text}", f.map(|_| ()), m.map(|_| ())),
+        }
+    }
+}

@@ -290,11 +290,11 @@ fn ideal_needs(
             continue;
         };
         let mut ionic = constant
-                .additions
-                .iter()
-                .map(|a| lab.stocks[a.stock.unwrap_or(0)].ionic_strength() * a.volume)
-                .sum::<f64>()
-                / total;
+            .additions
+            .iter()
+            .map(|a| lab.stocks[a.stock.unwrap_or(0)].ionic_strength() * a.volume)
+            .sum::<f64>()
+            / total;
         for (j, &s) in m.vary.iter().enumerate() {
             let v = volumes_ml[j] * 1e-3;
             ionic += lab.stocks[s].ionic_strength() * v / total;
@@ -349,9 +349,7 @@ pub(super) fn ideal_volumes(m: &RunModel) -> Option<Vec<f64>> {
     if let Some(v) = separable(m) {
         return Some(v);
     }
-    solve_tiers(m, Relax::Continuous)
-        .ok()
-        .map(|o| o.volumes_ml)
+    solve_tiers(m, Relax::Continuous).ok().map(|o| o.volumes_ml)
 }
 
 /// Volumes (mL) by the dilution law when each goal has exactly one varied stock and each
@@ -502,10 +500,7 @@ impl Search<'_> {
         if let Some(b) = best {
             let lb_worst = worst.max(rest_worst[i]);
             let lb_sum = sum + rest_sum[i];
-            if cmp_u(lb_worst, b.worst)
-                .then(cmp_u(lb_sum, b.sum))
-                .is_gt()
-            {
+            if cmp_u(lb_worst, b.worst).then(cmp_u(lb_sum, b.sum)).is_gt() {
                 return;
             }
         }
@@ -636,6 +631,9 @@ pub(super) fn units_of(holdings: &[(Holder, Vec<usize>)]) -> BTreeMap<usize, Vec
                 e.push(*h);
             }
         }
+    }
+    for holders in units.values_mut() {
+        holders.sort();
     }
     units
 }
@@ -865,4 +863,47 @@ fn why(spec: &Spec, lab: &Lab, h: &HolderData, o: usize, forced: &[usize]) -> St
         names(better.way),
         better.worst * 100.0
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reference::glassware::Class;
+
+    fn pipet(ml: f64, fills: u32) -> Device {
+        Device {
+            name: format!("{ml} mL pipet"),
+            kind: DeviceKind::VolumetricPipet,
+            class: Some(Class::A),
+            step: ml * 1e-3,
+            min: ml * 1e-3,
+            max: fills as f64 * ml * 1e-3,
+            max_fills: fills,
+            per_station: None,
+            shared: false,
+            dead_volume: ml * 1e-3,
+        }
+    }
+
+    #[test]
+    fn volumetric_pipets_combine_into_every_sum_with_the_fewest_fills() {
+        // 10 mL (up to 2 fills) and 5 mL (up to 2): 5, 10, 15, 20, 25, 30 mL; 10 mL is one
+        // fill of the 10 mL pipet rather than two of the 5 mL one.
+        let devices = vec![pipet(10.0, 2), pipet(5.0, 2)];
+        let table = combinations(&[0, 1], &devices, 0.05);
+        let volumes: Vec<f64> = table.iter().map(|(v, _)| (v * 1e3).round()).collect();
+        assert_eq!(volumes, vec![5.0, 10.0, 15.0, 20.0, 25.0, 30.0]);
+        assert_eq!(table[1].1.parts, vec![(0, 1)]);
+    }
+
+    #[test]
+    fn a_shared_pipet_is_one_per_station_and_a_buret_never_is() {
+        let mut p = pipet(1.0, 1);
+        assert_eq!(units_needed(&p, 3), 3);
+        p.shared = true;
+        assert_eq!(units_needed(&p, 3), 1);
+        let mut b = p.clone();
+        b.kind = DeviceKind::Buret;
+        assert_eq!(units_needed(&b, 3), 3);
+    }
 }

@@ -26,7 +26,9 @@ fn nearest_count(dev: &Device, ml: f64, allow_zero: bool) -> Option<u32> {
     let mut best: Option<(f64, u32)> = None;
     let mut consider = |n: u32| {
         let d = (n as f64 * step - ml).abs();
-        if best.is_none_or(|(bd, bn)| d < bd - 1e-12 * ml.abs().max(step) || (d <= bd + 1e-12 * ml.abs().max(step) && n < bn)) {
+        if best.is_none_or(|(bd, bn)| {
+            d < bd - 1e-12 * ml.abs().max(step) || (d <= bd + 1e-12 * ml.abs().max(step) && n < bn)
+        }) {
             best = Some((d, n));
         }
     };
@@ -79,7 +81,8 @@ fn held_search(
         let to = ((ideal + reach) / step(j)).ceil().min(hi as f64) as u32;
         let list: Vec<(u32, f64)> = (from..=to)
             .map(|n| {
-                let d = ((row.coeffs[j] * n as f64 * step(j) + row.constant) / (total * row.target)
+                let d = ((row.coeffs[j] * n as f64 * step(j) + row.constant)
+                    / (total * row.target)
                     - 1.0)
                     .abs();
                 (n, d)
@@ -113,10 +116,10 @@ fn held_search(
                 .sum::<f64>();
         let ideal = (row.target * total - rest) / row.coeffs[salt];
         counts[salt] = nearest_count(salt_dev, ideal.max(0.0), true)?;
-        let ionic =
-            ((rest + row.coeffs[salt] * counts[salt] as f64 * step(salt)) / (total * row.target)
-                - 1.0)
-                .abs();
+        let ionic = ((rest + row.coeffs[salt] * counts[salt] as f64 * step(salt))
+            / (total * row.target)
+            - 1.0)
+            .abs();
         all.push((counts, ionic, species_sum + ionic));
         // Next combination.
         let mut k = 0;

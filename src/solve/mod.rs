@@ -23,8 +23,8 @@ mod milp;
 mod model;
 pub mod station;
 
-pub use assign::{units_needed, Assignment, Choice, Holder};
 use assign::Distinct;
+pub use assign::{units_needed, Assignment, Choice, Holder};
 use rayon::prelude::*;
 pub use station::StationDevice;
 
@@ -166,7 +166,10 @@ fn solve_mode(spec: &Spec, lab: &Lab, shortcut: bool) -> Result<Solution> {
             .par_iter()
             .map(|d| {
                 let run = &spec.runs[d.run];
-                let forced = assigned.forced.get(&d.run).map_or(&[][..], |v| v.as_slice());
+                let forced = assigned
+                    .forced
+                    .get(&d.run)
+                    .map_or(&[][..], |v| v.as_slice());
                 solve_assigned(spec, lab, narrow, run, constant, ionic, forced)
             })
             .collect::<Vec<_>>()
@@ -205,9 +208,10 @@ fn solve_mode(spec: &Spec, lab: &Lab, shortcut: bool) -> Result<Solution> {
     let station = station::glassware(lab, &solved);
     station::check_counts(spec, lab, &station)?;
     let mut assignment = assigned.assignment;
-    assignment
-        .choices
-        .retain(|c| matches!(c.holder, Holder::Water) || matches!(c.holder, Holder::Stock(s) if used_stocks.contains(&s)));
+    assignment.choices.retain(|c| {
+        matches!(c.holder, Holder::Water)
+            || matches!(c.holder, Holder::Stock(s) if used_stocks.contains(&s))
+    });
     Ok(Solution {
         used_stocks,
         ionic_target,
@@ -293,9 +297,9 @@ fn solve_assigned(
             .map(|&(d, _)| full.devices[d].name.as_str())
             .collect();
         if !others.is_empty() {
-            let who = a
-                .stock
-                .map_or("water".to_string(), |s| format!("'{}'", full.stocks[s].name));
+            let who = a.stock.map_or("water".to_string(), |s| {
+                format!("'{}'", full.stocks[s].name)
+            });
             moved.push(format!("{who} with '{}'", others.join("' + '")));
         }
     }

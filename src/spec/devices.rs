@@ -95,7 +95,11 @@ impl Checker<'_> {
             Some(s) => *s.get_ref(),
             None => false,
         };
-        let nominal = if kind == DeviceKind::VolumetricPipet { step } else { max };
+        let nominal = if kind == DeviceKind::VolumetricPipet {
+            step
+        } else {
+            max
+        };
         let dead_volume = match &r.dead_volume {
             None => Device::default_dead_volume(kind, nominal),
             Some(q) => self.non_negative(q, Kind::Volume, "dead_volume")?,
