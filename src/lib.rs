@@ -58,10 +58,15 @@ fn report_of(
         .prior
         .as_ref()
         .map(|p| kinetics::forecast::forecast(spec, p, &initial));
+    // A run that repeats an earlier one's targets shares its report; only distinct runs need
+    // their uncertainty propagated.
     let uncertainty: Vec<_> = solution
         .runs
         .iter()
-        .map(|r| lab::uncertainty::propagate(spec, lab, r))
+        .map(|r| match r.same_as {
+            None => lab::uncertainty::propagate(spec, lab, r),
+            Some(_) => lab::uncertainty::RunUncertainty::default(),
+        })
         .collect();
     Ok(report::build(
         spec,

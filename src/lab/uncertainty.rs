@@ -13,7 +13,7 @@ use crate::solve::RunSolution;
 use crate::spec::{Lab, Spec};
 
 /// Relative standard uncertainties of one run.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct RunUncertainty {
     /// Per species, as in the run's concentrations.
     pub species: Vec<(String, f64)>,

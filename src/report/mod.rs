@@ -92,6 +92,22 @@ pub struct RunReport {
     /// Name of an earlier run with identical targets whose recipe this one repeats.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub same_as: Option<String>,
+    /// Everything else; runs with identical targets share one (a term's plan repeats a few
+    /// dozen recipes over thousands of runs).
+    #[serde(flatten)]
+    pub recipe: std::sync::Arc<RunRecipe>,
+}
+
+impl std::ops::Deref for RunReport {
+    type Target = RunRecipe;
+    fn deref(&self) -> &RunRecipe {
+        &self.recipe
+    }
+}
+
+/// What a run delivers and what it should give: the same for runs with identical targets.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RunRecipe {
     pub volumes: Vec<Volume>,
     /// Targets, mol/L.
     pub targets: Ordered,
@@ -234,7 +250,6 @@ pub(crate) fn sig10(v: f64) -> f64 {
 
 /// What building a plan report needs at hand.
 struct PlanContext<'a> {
-    spec: &'a Spec,
     lab: &'a Lab,
     solution: &'a Solution,
     mixing: &'a Mixing,
@@ -276,35 +291,50 @@ pub fn build(
     uncertainty: &[RunUncertainty],
 ) -> PlanReport {
     let ctx = PlanContext {
-        spec,
         lab,
         solution,
         mixing,
         pour: format!("{} into {}", mixing.poured, mixing.poured.other()),
     };
     let name = |s: Option<usize>| ctx.name(s);
-    let mut runs: Vec<RunReport> = solution
+    let mut recipes: Vec<std::sync::Arc<RunRecipe>> = Vec::with_capacity(solution.runs.len());
+    let mut runs: Vec<RunReport> = Vec::with_capacity(solution.runs.len());
+    for (i, ((r, run), portions)) in solution
         .runs
         .iter()
         .zip(&spec.runs)
         .zip(&mixing.runs)
-        .map(|((r, run), portions)| run_report(&ctx, r, run, portions))
-        .collect();
-    if let Some(f) = forecast {
-        for (r, rf) in runs.iter_mut().zip(&f.runs) {
-            r.forecast = Some(forecast_report(rf));
-        }
-    }
-    for (r, u) in runs.iter_mut().zip(uncertainty) {
-        r.uncertainty = Ordered(
-            u.species
-                .iter()
-                .map(|(s, v)| (s.clone(), sig10(*v)))
-                .collect(),
-        );
-        if let (Some(f), Some(t)) = (r.forecast.as_mut(), u.time) {
-            f.volumetric_uncertainty_pct = Some(sig10(t * 100.0));
-        }
+        .enumerate()
+    {
+        // A run that repeats an earlier one's targets shares its recipe (and its forecast,
+        // which depends on the concentrations alone).
+        let recipe = match r.same_as {
+            Some(first) => recipes[first].clone(),
+            None => {
+                let mut body = run_recipe(&ctx, r, portions);
+                if let Some(f) = forecast {
+                    body.forecast = Some(forecast_report(&f.runs[i]));
+                }
+                let u = &uncertainty[i];
+                body.uncertainty = Ordered(
+                    u.species
+                        .iter()
+                        .map(|(s, v)| (s.clone(), sig10(*v)))
+                        .collect(),
+                );
+                if let (Some(f), Some(t)) = (body.forecast.as_mut(), u.time) {
+                    f.volumetric_uncertainty_pct = Some(sig10(t * 100.0));
+                }
+                std::sync::Arc::new(body)
+            }
+        };
+        recipes.push(recipe.clone());
+        runs.push(RunReport {
+            name: run.name.clone(),
+            note: run.note.clone(),
+            same_as: r.same_as.map(|i| spec.runs[i].name.clone()),
+            recipe,
+        });
     }
 
     // The timing stock goes into every run with the same volume (the solve holds it fixed).
@@ -399,15 +429,14 @@ pub fn build(
     }
 }
 
-/// One run of the plan report: its volumes (water as delivered, per portion), targets,
-/// concentrations, deviations, portions and flags.
-fn run_report(
+/// One run's recipe in the plan report: its volumes (water as delivered, per portion),
+/// targets, concentrations, deviations, portions and flags.
+fn run_recipe(
     ctx: &PlanContext,
     r: &crate::solve::RunSolution,
-    run: &crate::spec::Run,
     portions: &crate::lab::portions::RunPortions,
-) -> RunReport {
-    let (spec, lab, solution) = (ctx.spec, ctx.lab, ctx.solution);
+) -> RunRecipe {
+    let (lab, solution) = (ctx.lab, ctx.solution);
     let name = |s: Option<usize>| ctx.name(s);
     let vessel_of = |s: usize| ctx.vessel_of(s);
     let portion_items = |p: &Portion| ctx.portion_items(p);
@@ -437,10 +466,7 @@ fn run_report(
             });
         }
     }
-    RunReport {
-        name: run.name.clone(),
-        note: run.note.clone(),
-        same_as: r.same_as.map(|i| spec.runs[i].name.clone()),
+    RunRecipe {
         volumes,
         targets: Ordered(
             r.goals
