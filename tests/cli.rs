@@ -142,6 +142,24 @@ fn flagged_plan_exits_1() {
 /// Each bad spec: (what it tests, text to replace, replacement, expected words in the message).
 const BAD: &[(&str, &str, &str, &str)] = &[
     (
+        "per_station zero",
+        "graduation = \"0.10 mL\"",
+        "graduation = \"0.10 mL\"\nper_station = 0",
+        "per_station must be a whole number from 1 to 100",
+    ),
+    (
+        "a shared buret",
+        "graduation = \"0.10 mL\"",
+        "graduation = \"0.10 mL\"\nshared = true",
+        "a buret cannot be shared between stocks",
+    ),
+    (
+        "negative dead volume",
+        "graduation = \"0.10 mL\"",
+        "graduation = \"0.10 mL\"\ndead_volume = \"-2 mL\"",
+        "dead_volume cannot be negative",
+    ),
+    (
         "stations not a whole number",
         "stations = 8 ",
         "stations = 2.5 ",

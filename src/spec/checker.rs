@@ -232,8 +232,17 @@ impl Checker<'_> {
 
     /// Zero or a positive value in the lab's range.
     pub(super) fn non_negative(&self, q: &Q, kind: Kind, field: &str) -> Result<f64> {
-        if self.qty(q, kind, field)? == 0.0 {
+        let v = self.qty(q, kind, field)?;
+        if v == 0.0 {
             return Ok(0.0);
+        }
+        if v < 0.0 {
+            return Err(self.err(
+                inner(q.span(), &self.src.text),
+                format!("{field} cannot be negative"),
+                "negative",
+                format!("give zero or a positive value, e.g. {field} = {}", kind.example()),
+            ));
         }
         self.positive(q, kind, field)
     }
