@@ -244,3 +244,30 @@ pub(super) fn solve(m: &RunModel, constant: &Constant, ionic: Option<f64>) -> Op
     additions.push(water);
     Some(evaluate(lab, m.run, additions, ionic))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reference::glassware::{Class, DeviceKind};
+
+    #[test]
+    fn rounding_takes_the_nearest_step_inside_the_range_and_ties_to_fewer() {
+        let buret = Device {
+            name: "b".into(),
+            kind: DeviceKind::Buret,
+            class: Some(Class::A),
+            step: 0.1e-3,
+            min: 0.1e-3,
+            max: 25e-3,
+            max_fills: 1,
+            per_station: None,
+            shared: false,
+            dead_volume: 0.0,
+        };
+        assert_eq!(nearest_count(&buret, 7.77, false), Some(78)); // 7.8 mL
+        assert_eq!(nearest_count(&buret, 7.75, false), Some(77)); // a tie: 7.7 mL
+        assert_eq!(nearest_count(&buret, 30.0, false), Some(250)); // capped at capacity
+        assert_eq!(nearest_count(&buret, 0.02, false), Some(1)); // at least one step
+        assert_eq!(nearest_count(&buret, 0.02, true), Some(0)); // or nothing, for a salt
+    }
+}

@@ -275,8 +275,11 @@ fn solve_assigned(
     if !changed {
         return first;
     }
-    let Ok(mut second) = solve_run(spec, &wide, run, constant, ionic) else {
-        return first;
+    // When both fail, the refusal speaks of every device the spec allows.
+    let mut second = match solve_run(spec, &wide, run, constant, ionic) {
+        Ok(s) => s,
+        Err(e) if first.is_err() => return Err(e),
+        Err(_) => return first,
     };
     if let Ok(r) = &first {
         if off(&second) >= off(r) {

@@ -241,7 +241,10 @@ impl Checker<'_> {
                 inner(q.span(), &self.src.text),
                 format!("{field} cannot be negative"),
                 "negative",
-                format!("give zero or a positive value, e.g. {field} = {}", kind.example()),
+                format!(
+                    "give zero or a positive value, e.g. {field} = {}",
+                    kind.example()
+                ),
             ));
         }
         self.positive(q, kind, field)
