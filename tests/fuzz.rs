@@ -510,6 +510,12 @@ fn sampled_mutants_through_the_binary_exit_0_1_or_2_and_write_nothing_on_error()
 /// Mutants the fuzzer found that once panicked, each as an edit of a demo spec; every one
 /// must now be refused with a location.
 const FOUND: &[(&str, &str, &str)] = &[
+    // A design multiplier of 2e300: the rounding shortcut overflowed its step count.
+    (
+        common::BROMATE,
+        "multipliers = [2.0]",
+        "multipliers = [2.0e300]",
+    ),
     // A denormal timing concentration: no timing volume at all, and the report panicked.
     (
         common::BROMATE,

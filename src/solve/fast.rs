@@ -32,8 +32,9 @@ fn nearest_count(dev: &Device, ml: f64, allow_zero: bool) -> Option<u32> {
             best = Some((d, n));
         }
     };
+    // Saturating: a volume far beyond the device (a mistyped exponent) rounds to its top.
     let floor = x.floor().max(0.0) as u64;
-    for n in [floor, floor + 1] {
+    for n in [floor, floor.saturating_add(1)] {
         consider(n.clamp(lo as u64, hi as u64) as u32);
     }
     if allow_zero {
@@ -269,5 +270,7 @@ mod tests {
         assert_eq!(nearest_count(&buret, 30.0, false), Some(250)); // capped at capacity
         assert_eq!(nearest_count(&buret, 0.02, false), Some(1)); // at least one step
         assert_eq!(nearest_count(&buret, 0.02, true), Some(0)); // or nothing, for a salt
+                                                                // Regression (fuzz: a multiplier of 2e300): no overflow past the largest count.
+        assert_eq!(nearest_count(&buret, 1e300, false), Some(250));
     }
 }

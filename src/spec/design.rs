@@ -74,11 +74,13 @@ impl Checker<'_> {
                 let v: Vec<f64> = m.get_ref().iter().map(|x| *x.get_ref()).collect();
                 if v.is_empty()
                     || v.iter()
-                        .any(|x| !(x.is_finite() && *x > 0.0 && (*x - 1.0).abs() > 1e-9))
+                        .any(|x| !((0.01..=100.0).contains(x) && (*x - 1.0).abs() > 1e-9))
                 {
+                    // Beyond a hundredfold either way a run leaves any clock lab's range (and
+                    // a mistyped exponent would reach the solver).
                     return Err(self.err(
                         m.span(),
-                        "multipliers must be positive numbers other than 1",
+                        "multipliers must be numbers from 0.01 to 100, other than 1",
                         "here",
                         "e.g. multipliers = [2.0] or [0.5, 2.0]",
                     ));
