@@ -6,8 +6,10 @@ use crate::report::{ForecastReport, ForecastSheet, PlanReport, StockSheet};
 /// Columns: `run, row, name, vessel, mL, device, target_M, achieved_M, deviation, value`.
 /// For `species` rows `value` is the relative standard uncertainty (k = 1) of the final
 /// concentration. `row` is `volume`, `species`, `ionic_strength`, `forecast` (name = quantity with its unit,
-/// number in `value`), `warning` (name = code, text in `value`) or `stock_total`. Cells that do
-/// not apply are empty.
+/// number in `value`), `warning` (name = code, text in `value`), `station_device` (name = the
+/// device, `device` = what it holds, `value` = how many one station needs, `mL` = its dead
+/// volume), `tray` (name = the bottle, `mL` = one station's fill) or `stock_total`. Cells that
+/// do not apply are empty.
 pub struct Csv;
 
 const HEADER: [&str; 10] = [
@@ -156,6 +158,34 @@ impl Exporter for Csv {
         }
         for f in &report.warnings {
             w.value("", "warning", f.code, f.message.clone());
+        }
+        for g in &report.glassware {
+            w.put([
+                e(),
+                "station_device".into(),
+                g.device.clone(),
+                e(),
+                g.dead_volume_ml.to_string(),
+                g.holds.join("; "),
+                e(),
+                e(),
+                e(),
+                g.per_station.to_string(),
+            ]);
+        }
+        for t in &report.tray {
+            w.put([
+                e(),
+                "tray".into(),
+                t.stock.clone(),
+                e(),
+                t.fill_ml.to_string(),
+                e(),
+                e(),
+                e(),
+                e(),
+                e(),
+            ]);
         }
         for t in &report.stock_totals {
             w.put([
