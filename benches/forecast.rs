@@ -4,7 +4,7 @@
 use clockprep::error::SpecSource;
 use clockprep::kinetics::RunKinetics;
 use clockprep::reference::equation::parse_equation;
-use clockprep::spec::{Reaction, Term, Visible};
+use clockprep::spec::{Reaction, Term, Visible, VisibleAs};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::hint::black_box;
 
@@ -28,6 +28,8 @@ fn bromate() -> RunKinetics {
         }],
         Some(Visible {
             threshold: 1e-5,
+            criterion: VisibleAs::Triiodide,
+            factor: 1.5,
             source: None,
         }),
     )

@@ -486,6 +486,18 @@ fn a_run_set_that_times_badly_exits_1() {
 
 /// Bad reaction and forecast settings, on the forecast demo.
 const BAD_FORECAST: &[(&str, &str, &str, &str)] = &[
+    (
+        "unknown visible criterion",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\nvisible = { threshold = \"10 uM\", as = \"iodine\" }",
+        "unknown visible criterion 'iodine'",
+    ),
+    (
+        "threshold factor below 1",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\nvisible = { threshold = \"10 uM\", factor = 0.5 }",
+        "factor must be a number from 1 to 10",
+    ),
     ("unknown preset", "preset = \"peroxide-iodide\"", "preset = \"peroxide-bromide\"", "unknown reaction preset 'peroxide-bromide'"),
     ("missing temperature", "temperature = \"20 °C\"\n", "", "needs the planned room temperature"),
     ("band too wide", "temperature_band = \"2 °C\"", "temperature_band = \"30 °C\"", "from 0 to 15 °C"),
@@ -732,7 +744,7 @@ fn tune_centres_or_says_what_to_change() {
         .assert()
         .code(0)
         .stdout(predicate::str::contains(
-            "Best single timing concentration: S2O3^2- 0.574 mM",
+            "Best single timing concentration: S2O3^2- 0.570 mM",
         ));
     // Acid ×3 in a run set that also has a slow base: with a 20 s to 40 s window nothing fits.
     let dir = tempfile::tempdir().unwrap();

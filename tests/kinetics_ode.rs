@@ -1,11 +1,13 @@
 //! Independent check of the clock-time forecast against a general-purpose ODE integrator
 //! (ode_solvers' Dopri5, a dev-dependency) on the full mass-action system with an explicit fast
 //! iodine–thiosulfate step (k = 1e7 M⁻¹ s⁻¹). The forecast's time to visible colour (clock plus
-//! the wait for the intermediate to reach the threshold) must agree within 0.5 %.
+//! the wait for the intermediate to reach the threshold) must agree within 0.5 %. For the
+//! triiodide criterion, the integrator's total iodine and iodide are split by the exact root of
+//! the I2 + I- ⇌ I3- equilibrium at each output point.
 
 use clockprep::kinetics::RunKinetics;
 use clockprep::reference::equation::parse_equation;
-use clockprep::spec::{Reaction, Term, Visible};
+use clockprep::spec::{Reaction, Term, Visible, VisibleAs};
 use ode_solvers::{Dopri5, System, Vector5};
 
 /// Fast clock step, M⁻¹ s⁻¹: I2 + 2 S2O3^2- → 2 I- + S4O6^2-.
@@ -20,6 +22,27 @@ type RateLaw = Box<dyn Fn(&Vector5<f64>) -> f64>;
 struct Clock {
     main: (f64, f64, f64),
     rate: RateLaw,
+    criterion: VisibleAs,
+}
+
+/// I2 + I- ⇌ I3- at 25 °C: K = 698 (Palmer, Ramette and Mesmer, J. Solution Chem. 13 (1984)
+/// 673).
+const K_TRIIODIDE: f64 = 698.0;
+
+/// What the eye sees in state `y`: total I2, or I3- from total iodine T = y[3] and total iodide
+/// L = y[1] by the root of K (T − x)(L − x) = x, i.e. K x² − (K (T + L) + 1) x + K T L = 0.
+fn seen(criterion: VisibleAs, y: &Vector5<f64>) -> f64 {
+    let (t, l) = (y[3].max(0.0), y[1].max(0.0));
+    match criterion {
+        VisibleAs::Total => t,
+        VisibleAs::Triiodide => {
+            let k = K_TRIIODIDE;
+            let b = k * (t + l) + 1.0;
+            let disc = b * b - 4.0 * k * k * t * l;
+            // The smaller root, in the numerically stable form 2c / (b + √disc).
+            2.0 * k * t * l / (b + disc.max(0.0).sqrt())
+        }
+    }
 }
 
 impl System<f64, Vector5<f64>> for Clock {
@@ -34,12 +57,13 @@ impl System<f64, Vector5<f64>> for Clock {
     }
 
     fn solout(&mut self, _t: f64, y: &Vector5<f64>, _dy: &Vector5<f64>) -> bool {
-        y[3] >= THRESHOLD
+        seen(self.criterion, y) >= THRESHOLD
     }
 }
 
 /// Time at which I2 first reaches the threshold, interpolated between dense output points.
 fn ode_time(system: Clock, y0: Vector5<f64>, t_end: f64) -> f64 {
+    let criterion = system.criterion;
     let dt = t_end * 1e-5;
     let mut stepper = Dopri5::from_param(
         system,
@@ -63,9 +87,10 @@ fn ode_time(system: Clock, y0: Vector5<f64>, t_end: f64) -> f64 {
     let (ts, ys) = (stepper.x_out(), stepper.y_out());
     let i = ys
         .iter()
-        .position(|y| y[3] >= THRESHOLD)
+        .position(|y| seen(criterion, y) >= THRESHOLD)
         .expect("the colour appears");
-    let (t0, t1, a, b) = (ts[i - 1], ts[i], ys[i - 1][3], ys[i][3]);
+    let (t0, t1) = (ts[i - 1], ts[i]);
+    let (a, b) = (seen(criterion, &ys[i - 1]), seen(criterion, &ys[i]));
     t0 + (THRESHOLD - a) / (b - a) * (t1 - t0)
 }
 
@@ -102,6 +127,8 @@ fn agrees(
         terms,
         Some(Visible {
             threshold: THRESHOLD,
+            criterion: system.criterion,
+            factor: 1.0,
             source: None,
         }),
     )
@@ -144,8 +171,34 @@ fn bromate_iodide_acid_agrees_with_mass_action() {
         Clock {
             main: (-6.0, -6.0, 3.0),
             rate: Box::new(move |y| k * y[0] * y[1] * y[2] * y[2]),
+            criterion: VisibleAs::Total,
         },
     );
+}
+
+#[test]
+fn the_triiodide_end_point_agrees_with_mass_action_and_the_exact_equilibrium() {
+    // As above, with the colour seen when I3- reaches the threshold. At 2 mM iodide,
+    // 1/(K [I-]) = 0.72: the wait after the clock is about 1.7 times the total-iodine one.
+    let k = 40.0;
+    let run = |criterion| {
+        agrees(
+            "BrO3-",
+            "BrO3- + 6 I- + 6 H+ -> Br- + 3 I2 + 3 H2O",
+            vec![term(k, &[("BrO3-", 1.0), ("I-", 1.0), ("H+", 2.0)])],
+            [0.008, 0.002, 0.02],
+            1.0e-4,
+            Clock {
+                main: (-6.0, -6.0, 3.0),
+                rate: Box::new(move |y| k * y[0] * y[1] * y[2] * y[2]),
+                criterion,
+            },
+        )
+    };
+    let total = run(VisibleAs::Total);
+    let tri = run(VisibleAs::Triiodide);
+    let ratio = tri.visible_extra / total.visible_extra;
+    assert!((1.6..1.8).contains(&ratio), "{ratio}");
 }
 
 #[test]
@@ -164,6 +217,7 @@ fn peroxide_two_term_law_agrees_with_mass_action() {
         Clock {
             main: (-2.0, -2.0, 1.0),
             rate: Box::new(move |y| (ka + kb * y[2]) * y[0] * y[1]),
+            criterion: VisibleAs::Triiodide,
         },
     );
     // Acid is 10 % used up here, so the exact integral and the initial-rate estimate differ.

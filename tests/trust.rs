@@ -274,7 +274,7 @@ fn fit_flags_a_time_typed_without_its_decimal_point() {
     assert!(
         says(
             &o.stdout,
-            "6590 s for run 'iodide x2' is 124 times the prior's forecast"
+            "6590 s for run 'iodide x2' is 118 times the prior's forecast"
         ),
         "{}",
         o.stdout
@@ -771,7 +771,7 @@ fn design_flags_runs_outside_the_window_anywhere_in_the_band_and_exits_1() {
     assert!(
         says(
             &o.stdout,
-            "WARNING: run 'I- x2': predicted 66.5 s at the cool end of the band (18.0 °C)"
+            "WARNING: run 'I- x2': predicted 77.3 s at the cool end of the band (18.0 °C)"
         ),
         "{}",
         o.stdout

@@ -196,6 +196,8 @@ mod tests {
             rate: Some(1e-6),
             initial_rate: Some(1e-6),
             volumetric_uncertainty_pct: None,
+            visible_extra_range_s: None,
+            threshold_uncertainty_pct: None,
             max_conversion: Some(0.01),
             max_conversion_species: Some("H+".into()),
             warnings: if flagged {

@@ -22,6 +22,9 @@ pub struct RunForecast {
     pub band_times: Option<(f64, f64)>,
     /// Whether the reported time includes the wait from the clock to visible colour.
     pub uses_visible: bool,
+    /// The visible wait at the planned temperature with the threshold at the low and high end
+    /// of its factor, s.
+    pub visible_range: Option<(f64, f64)>,
     /// Fraction of each reactant used up at the clock.
     pub conversions: Vec<(String, f64)>,
     /// The rate (M/s) students would compute from the predicted time, `[timing]`₀/(ν t).
@@ -85,6 +88,7 @@ pub fn forecast(spec: &Spec, prior: &Prior, initial: &[Vec<(String, f64)>]) -> F
                 timing: None,
                 band_times: None,
                 uses_visible: reaction.visible.is_some(),
+                visible_range: None,
                 conversions: Vec::new(),
                 implied_rate: None,
                 warnings: Vec::new(),
@@ -101,7 +105,16 @@ pub fn forecast(spec: &Spec, prior: &Prior, initial: &[Vec<(String, f64)>]) -> F
                 }
             };
             let at = kin.at(t);
-            let (at_warm, at_cool) = (kin.at(warm), kin.at(cool));
+            // The band: the warm end with the threshold at its low end (×/÷ its factor), the
+            // cool end with it at its high end.
+            let factor = reaction.visible.as_ref().map_or(1.0, |v| v.factor);
+            let (at_warm, at_cool) = kin.band_ends(t, settings.band, factor);
+            if factor > 1.0 {
+                out.visible_range = Some((
+                    kin.at_scaled(t, 1.0 / factor).visible_extra,
+                    kin.at_scaled(t, factor).visible_extra,
+                ));
+            }
             let fast = at_warm.to_colour();
             let slow = at_cool.to_colour();
             let time = at.to_colour();

@@ -19,7 +19,30 @@ pub mod forecast;
 pub mod times;
 pub mod tune;
 
-use crate::spec::{Reaction, Term, MAX_TERMS};
+use crate::spec::{Reaction, Term, VisibleAs, MAX_TERMS};
+
+/// I₂ + I⁻ ⇌ I₃⁻: the formation constant at 25 °C (molal, ≈ molar in dilute solution) and the
+/// standard enthalpy of formation, J/mol. Palmer, Ramette and Mesmer, "Triiodide ion formation
+/// equilibrium and activity coefficients in aqueous solution", J. Solution Chem. 13 (1984)
+/// 673: K = 698 ± 10, ΔH° = −17.0 ± 0.6 kJ/mol.
+pub const TRIIODIDE_K25: f64 = 698.0;
+pub const TRIIODIDE_DH: f64 = -17.0e3;
+
+/// The triiodide formation constant at `t` (K), by van 't Hoff with ΔH° constant (its ΔCp° of
+/// −21 J/(K mol) changes K by under 0.1 % across 15 to 35 °C).
+pub fn triiodide_k(t: f64) -> f64 {
+    TRIIODIDE_K25 * (-TRIIODIDE_DH / R * (1.0 / t - 1.0 / 298.15)).exp()
+}
+
+/// Total iodine (I₂ + I₃⁻, mol/L) that holds `triiodide` mol/L of I₃⁻ when `iodide` mol/L of
+/// iodide is present in all (free and in I₃⁻): [I₃⁻] = K [I₂] [I⁻] with [I⁻] = iodide − [I₃⁻].
+pub fn iodine_for_triiodide(triiodide: f64, iodide: f64, k: f64) -> f64 {
+    let free = iodide - triiodide;
+    if free <= 0.0 {
+        return f64::INFINITY;
+    }
+    triiodide + triiodide / (k * free)
+}
 use std::fmt;
 
 /// Molar gas constant, J mol⁻¹ K⁻¹ (CODATA 2018, exact since the 2019 SI redefinition).
@@ -52,12 +75,47 @@ pub struct RunKinetics {
     k: Vec<(f64, f64, Option<f64>)>,
     /// Extent at the clock, mol/L.
     xi_clock: f64,
-    /// Extra extent after the clock to reach the visible threshold, mol/L (0 without one).
-    xi_visible: f64,
+    /// The visible end point, when there is one.
+    visible: Option<VisibleModel>,
     /// Reactants (consumed while the timing reagent lasts): initial concentration and change per ξ.
     consumed: Vec<(String, f64, f64)>,
     nu: f64,
     timing: f64,
+}
+
+/// The visible end point of one run: the threshold, what it measures, the intermediate made per
+/// unit extent after the clock, and the iodide at the clock and its change per unit extent.
+#[derive(Debug, Clone)]
+struct VisibleModel {
+    threshold: f64,
+    criterion: VisibleAs,
+    per_xi: f64,
+    iodide_at_clock: f64,
+    iodide_per_xi: f64,
+}
+
+impl VisibleModel {
+    /// Extent after the clock (mol/L) until the colour shows at `t` (K), with the threshold
+    /// scaled by `scale`.
+    fn extent(&self, t: f64, scale: f64) -> f64 {
+        let theta = self.threshold * scale;
+        match self.criterion {
+            VisibleAs::Total => theta / self.per_xi,
+            VisibleAs::Triiodide => {
+                // The iodide left falls slightly as iodine forms: a few fixed-point steps.
+                let k = triiodide_k(t);
+                let mut xi = theta / self.per_xi;
+                for _ in 0..6 {
+                    let iodide = self.iodide_at_clock + self.iodide_per_xi * xi;
+                    xi = iodine_for_triiodide(theta, iodide, k) / self.per_xi;
+                    if !xi.is_finite() {
+                        break;
+                    }
+                }
+                xi
+            }
+        }
+    }
 }
 
 /// The forecast of one run at one temperature.
@@ -134,18 +192,25 @@ impl RunKinetics {
                 consumed.push((s.clone(), c, *d));
             }
         }
-        let xi_visible = match &reaction.visible {
+        let visible = match &reaction.visible {
             Some(v) => {
                 let p = reaction.after(&reaction.intermediate);
-                if p > 0.0 {
-                    v.threshold / p
-                } else {
-                    0.0
-                }
+                (p > 0.0).then(|| VisibleModel {
+                    threshold: v.threshold,
+                    criterion: v.criterion,
+                    per_xi: p,
+                    iodide_at_clock: conc("I-") + reaction.during("I-") * xi_clock,
+                    iodide_per_xi: reaction.after("I-"),
+                })
             }
-            None => 0.0,
+            None => None,
         };
-        // After the clock, a reactant may not run out before the colour shows either.
+        // After the clock, a reactant may not run out before the colour shows either (judged
+        // at 25 °C and the stated threshold; a hotter or colder run moves it little).
+        let xi_visible = visible.as_ref().map_or(0.0, |v| v.extent(298.15, 1.0));
+        if !xi_visible.is_finite() {
+            return Err(NoClock::Exhausted("I-".into()));
+        }
         for s in &species {
             let at_clock = conc(s) + reaction.during(s) * xi_clock;
             if at_clock + reaction.after(s) * xi_visible <= 0.0 {
@@ -172,7 +237,7 @@ impl RunKinetics {
                 .map(|t| (t.k_ref, t.t_ref, t.activation_energy))
                 .collect(),
             xi_clock,
-            xi_visible,
+            visible,
             consumed,
             nu: reaction.nu,
             timing,
@@ -203,6 +268,21 @@ impl RunKinetics {
 
     /// Forecast at temperature `t` (K).
     pub fn at(&self, t: f64) -> Timing {
+        self.at_scaled(t, 1.0)
+    }
+
+    /// The band's fast and slow ends around `t` (K): `half` K warmer with the visible
+    /// threshold `factor` times lower, and `half` K cooler with it `factor` times higher.
+    pub fn band_ends(&self, t: f64, half: f64, factor: f64) -> (Timing, Timing) {
+        (
+            self.at_scaled(t + half, 1.0 / factor),
+            self.at_scaled(t - half, factor),
+        )
+    }
+
+    /// Forecast at `t` (K) with the visible threshold scaled by `scale` (for its uncertainty).
+    pub fn at_scaled(&self, t: f64, scale: f64) -> Timing {
+        let xi_visible = self.visible.as_ref().map_or(0.0, |v| v.extent(t, scale));
         let mut ks = [0.0; MAX_TERMS];
         for (slot, &(k_ref, t_ref, ea)) in ks.iter_mut().zip(&self.k) {
             *slot = match ea {
@@ -212,11 +292,17 @@ impl RunKinetics {
         }
         let f = |xi: f64| 1.0 / self.rate(&ks, xi);
         let clock = integrate_with_error(&f, 0.0, self.xi_clock, QUADRATURE_TOLERANCE);
-        let visible = if self.xi_visible > 0.0 {
+        let visible = if !xi_visible.is_finite() {
+            // The iodide is gone before the triiodide shows.
+            Quadrature {
+                value: f64::INFINITY,
+                error: f64::INFINITY,
+            }
+        } else if xi_visible > 0.0 {
             integrate_with_error(
                 &f,
                 self.xi_clock,
-                self.xi_clock + self.xi_visible,
+                self.xi_clock + xi_visible,
                 QUADRATURE_TOLERANCE,
             )
         } else {
@@ -391,6 +477,28 @@ mod tests {
     use super::*;
     use crate::reference::equation::parse_equation;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn triiodide_constant_follows_van_t_hoff_from_the_published_value() {
+        // Palmer, Ramette and Mesmer 1984: K = 698 at 25 °C, ΔH° = −17.0 kJ/mol. By hand at
+        // 20 °C: 698 · exp(17000/8.314462618 · (1/293.15 − 1/298.15)) = 698 · exp(0.116965)
+        // = 784.6.
+        assert_relative_eq!(triiodide_k(298.15), 698.0, max_relative = 1e-12);
+        assert_relative_eq!(triiodide_k(293.15), 784.6, max_relative = 2e-4);
+    }
+
+    #[test]
+    fn iodine_needed_for_a_triiodide_threshold_by_hand() {
+        // 10 µM I3- with 2.00 mM iodide in all, K = 698: free iodide 1.99 mM, free I2 =
+        // 1e-5/(698 · 1.99e-3) = 1e-5/1.38902 = 7.19932e-6 M, total 1.719932e-5 M. Check:
+        // K [I2][I-] = [I3-].
+        let total = iodine_for_triiodide(1e-5, 2e-3, 698.0);
+        assert_relative_eq!(total, 1.719932e-5, max_relative = 1e-6);
+        let free_i2 = total - 1e-5;
+        assert_relative_eq!(698.0 * free_i2 * (2e-3 - 1e-5), 1e-5, max_relative = 1e-12);
+        // No iodide left to hold the threshold: never visible.
+        assert!(iodine_for_triiodide(1e-5, 1e-5, 698.0).is_infinite());
+    }
 
     #[test]
     fn quadrature_is_bounded_and_reports_its_error() {

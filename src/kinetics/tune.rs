@@ -50,11 +50,14 @@ fn times(
                 e.1 = c;
             }
             let k = RunKinetics::new(reaction, &c0, c).ok()?;
+            // The same band as the forecast's: temperature and the visible threshold's factor.
+            let factor = reaction.visible.as_ref().map_or(1.0, |v| v.factor);
+            let (fast, slow) = k.band_ends(f.temperature, f.band, factor);
             Some(RunTimes {
                 name: r.name.clone(),
-                fast: k.at(f.temperature + f.band).to_colour(),
+                fast: fast.to_colour(),
                 at: k.at(f.temperature).to_colour(),
-                slow: k.at(f.temperature - f.band).to_colour(),
+                slow: slow.to_colour(),
             })
         })
         .collect()

@@ -2,6 +2,7 @@
 //! the sheet of `clockprep forecast` ("format": "clockprep-forecast/1").
 
 use super::*;
+use crate::spec::VisibleAs;
 
 /// Version tag of the `clockprep forecast` JSON layout.
 pub const FORECAST_FORMAT: &str = "clockprep-forecast/1";
@@ -36,6 +37,11 @@ pub struct ForecastReport {
     pub initial_rate: Option<f64>,
     /// Relative standard uncertainty (k = 1) of the time from glassware and stocks, percent.
     pub volumetric_uncertainty_pct: Option<f64>,
+    /// The visible wait with the threshold at the low and high end of its factor, s.
+    pub visible_extra_range_s: Option<[f64; 2]>,
+    /// Relative standard uncertainty (k = 1) of the time to colour from the visible
+    /// threshold's factor (half the range above, over the time), percent.
+    pub threshold_uncertainty_pct: Option<f64>,
     /// Largest fraction of a reactant used up at the clock, and which one.
     pub max_conversion: Option<f64>,
     pub max_conversion_species: Option<String>,
@@ -66,6 +72,19 @@ pub struct ReactionReport {
     pub terms: Vec<TermReport>,
     #[serde(rename = "visible_threshold_M")]
     pub visible_threshold: Option<f64>,
+    /// What the threshold measures: "triiodide" (I3-, which starch shows) or "total" (the
+    /// intermediate's total concentration).
+    pub visible_as: Option<&'static str>,
+    /// The threshold is known within ×/÷ this factor (k = 1).
+    pub visible_factor: Option<f64>,
+    /// I2 + I- ⇌ I3- at 25 °C and its enthalpy, when the threshold is triiodide.
+    #[serde(rename = "triiodide_K_25C", skip_serializing_if = "Option::is_none")]
+    pub triiodide_k: Option<f64>,
+    #[serde(
+        rename = "triiodide_dH_kJ_per_mol",
+        skip_serializing_if = "Option::is_none"
+    )]
+    pub triiodide_dh: Option<f64>,
     pub visible_source: Option<String>,
 }
 
@@ -136,6 +155,11 @@ pub(super) fn forecast_report(f: &RunForecast) -> ForecastReport {
         rate: f.implied_rate.map(sig10),
         initial_rate: f.timing.map(|t| sig10(t.rate0)),
         volumetric_uncertainty_pct: None,
+        visible_extra_range_s: f.visible_range.map(|(a, b)| [sig10(a), sig10(b)]),
+        threshold_uncertainty_pct: f
+            .visible_range
+            .zip(f.time())
+            .map(|((a, b), t)| sig10((b - a) / 2.0 / t * 100.0)),
         max_conversion: max.map(|m| sig10(m.1)),
         max_conversion_species: max.map(|m| m.0.to_string()),
         warnings: f.warnings.clone(),
@@ -171,6 +195,18 @@ pub(super) fn reaction_report(r: &Reaction) -> ReactionReport {
             })
             .collect(),
         visible_threshold: r.visible.as_ref().map(|v| sig10(v.threshold)),
+        visible_as: r.visible.as_ref().map(|v| v.criterion.word()),
+        visible_factor: r.visible.as_ref().map(|v| sig10(v.factor)),
+        triiodide_k: r
+            .visible
+            .as_ref()
+            .filter(|v| v.criterion == VisibleAs::Triiodide)
+            .map(|_| crate::kinetics::TRIIODIDE_K25),
+        triiodide_dh: r
+            .visible
+            .as_ref()
+            .filter(|v| v.criterion == VisibleAs::Triiodide)
+            .map(|_| crate::kinetics::TRIIODIDE_DH / 1e3),
         visible_source: r.visible.as_ref().and_then(|v| v.source.clone()),
     }
 }

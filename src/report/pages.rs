@@ -50,8 +50,18 @@ fn prior_section(r: &ReactionReport, s: &ForecastSettingsReport) -> Section {
         });
     }
     if let Some(v) = r.visible_threshold {
+        let factor = r
+            .visible_factor
+            .map(|f| format!(", known within ×/÷ {}", sig(f, 2)))
+            .unwrap_or_default();
+        let what = match (r.triiodide_k, r.triiodide_dh) {
+            (Some(k), Some(dh)) => format!(
+                "I3- (starch shows triiodide: the iodine needed follows I2 + I- ⇌ I3-, K = {k} at 25 °C, ΔH {dh} kJ/mol, Palmer, Ramette and Mesmer 1984)"
+            ),
+            _ => format!("{} (its total concentration)", r.intermediate),
+        };
         items.push(Item {
-            text: format!("visible at {} µM {}", sig(v * 1e6, 3), r.intermediate),
+            text: format!("visible at {} µM {what}{factor}", sig(v * 1e6, 3)),
             details: r
                 .visible_source
                 .iter()

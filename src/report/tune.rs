@@ -35,6 +35,8 @@ pub struct TuneSheet {
     pub limit_m: f64,
     /// Smallest factor between a run's time and the window edge (> 1 inside).
     pub margin_factor: f64,
+    /// The visible threshold's factor (×/÷) that widens the band with the temperature's.
+    pub threshold_factor: Option<f64>,
     pub fits: bool,
     pub window_s: [f64; 2],
     /// Warm and cool ends of the band, °C.
@@ -58,6 +60,7 @@ impl TuneSheet {
             current_m: spec.timing.concentration,
             limit_m: t.limit,
             margin_factor: t.margin.exp(),
+            threshold_factor: prior.reaction.visible.as_ref().map(|v| v.factor),
             fits: t.margin >= 0.0,
             window_s: [f.window.0, f.window.1],
             band_c: [
@@ -99,11 +102,15 @@ impl TuneSheet {
             units::concentration(self.limit_m)
         ));
         head.para(format!(
-            "Smallest margin to the {:.0} s to {:.0} s window across {:.1} to {:.1} °C: x{:.2} {}.",
+            "Smallest margin to the {:.0} s to {:.0} s window across {:.1} to {:.1} °C{}: x{:.2} {}.",
             self.window_s[0],
             self.window_s[1],
             self.band_c[0],
             self.band_c[1],
+            self.threshold_factor
+                .filter(|f| *f > 1.0)
+                .map(|f| format!(" and the visible threshold ×/÷ {}", crate::units::sig(f, 2)))
+                .unwrap_or_default(),
             self.margin_factor,
             if self.fits {
                 "(inside)"

@@ -62,8 +62,13 @@ pub fn forecast_lines(f: &ForecastReport) -> Vec<String> {
     else {
         return vec!["No predicted time: see the flag below.".into()];
     };
+    let threshold = if f.visible_extra_range_s.is_some() {
+        " and the threshold's uncertainty"
+    } else {
+        ""
+    };
     let mut out = vec![format!(
-        "Predicted time to {}: {} at {:.1} °C ({} to {} over {:.1} to {:.1} °C); an estimate, not a guarantee.",
+        "Predicted time to {}: {} at {:.1} °C ({} to {} over {:.1} to {:.1} °C{threshold}); an estimate, not a guarantee.",
         f.uses,
         secs(t),
         f.temperature_c,
@@ -74,7 +79,15 @@ pub fn forecast_lines(f: &ForecastReport) -> Vec<String> {
     )];
     let visible = f
         .visible_extra_s
-        .map(|v| format!(" + {} to visible colour", secs(v)))
+        .map(|v| match f.visible_extra_range_s {
+            Some([lo, hi]) => format!(
+                " + {} to visible colour ({} to {} over the threshold's uncertainty)",
+                secs(v),
+                secs(lo),
+                secs(hi)
+            ),
+            None => format!(" + {} to visible colour", secs(v)),
+        })
         .unwrap_or_default();
     out.push(format!(
         "Clock {}{visible}; initial-rate estimate {} ({:+.1} %).",

@@ -27,11 +27,38 @@ impl Term {
     }
 }
 
-/// The visible end point: the intermediate reaches `threshold` (mol/L) after the timing
-/// reagent is gone.
+/// What the visible threshold measures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum VisibleAs {
+    /// Triiodide, I₃⁻, which starch responds to: the total iodine needed depends on [I⁻]
+    /// through I₂ + I⁻ ⇌ I₃⁻ (the default for an iodine clock).
+    Triiodide,
+    /// The intermediate's total concentration (every other clock).
+    Total,
+}
+
+impl VisibleAs {
+    pub fn word(self) -> &'static str {
+        match self {
+            VisibleAs::Triiodide => "triiodide",
+            VisibleAs::Total => "total",
+        }
+    }
+}
+
+/// Default factor within which a visible threshold is known (k = 1, ×/÷), when the spec gives
+/// none: from memory, the starch end point seen by eye varies by about half again with the
+/// starch's age, the lighting and the observer.
+pub const THRESHOLD_FACTOR: f64 = 1.5;
+
+/// The visible end point: the intermediate (or, for `Triiodide`, I₃⁻) reaches `threshold`
+/// (mol/L) after the timing reagent is gone.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Visible {
     pub threshold: f64,
+    pub criterion: VisibleAs,
+    /// The threshold is known within ×/÷ this factor (standard uncertainty of its logarithm).
+    pub factor: f64,
     pub source: Option<String>,
 }
 

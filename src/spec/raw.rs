@@ -113,6 +113,10 @@ pub(crate) struct RawReaction {
 #[serde(deny_unknown_fields)]
 pub(crate) struct RawVisible {
     pub(crate) threshold: Q,
+    /// "triiodide" or "total".
+    #[serde(rename = "as")]
+    pub(crate) measured_as: Option<Name>,
+    pub(crate) factor: Option<Spanned<f64>>,
     pub(crate) source: Option<String>,
 }
 

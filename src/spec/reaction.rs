@@ -5,6 +5,7 @@ use super::checker::{inner, toml_error, Checker};
 use super::model::*;
 use super::raw::*;
 use crate::error::{Result, SpecSource};
+use crate::spec::{Visible, VisibleAs};
 use crate::units::{self, Kind};
 use toml::{Spanned, Value};
 
@@ -114,7 +115,7 @@ impl Checker<'_> {
         available: &dyn Fn(&str) -> bool,
     ) -> Result<crate::spec::Reaction> {
         use crate::reference::equation::parse_equation;
-        use crate::spec::{Reaction, Visible, MAX_TERMS};
+        use crate::spec::{Reaction, MAX_TERMS};
         let raw = r.get_ref();
         let table = r.span().start..r.span().start;
         let preset = match &raw.preset {
@@ -235,10 +236,7 @@ impl Checker<'_> {
         };
         let visible = match visible {
             None => None,
-            Some((c, v)) => Some(Visible {
-                threshold: c.positive(&v.get_ref().threshold, Kind::Concentration, "threshold")?,
-                source: v.get_ref().source.clone(),
-            }),
+            Some((c, v)) => Some(c.visible(v, &main)?),
         };
         let name = match &preset {
             Some((key, ..)) if raw.main.is_none() && raw.clock.is_none() && raw.term.is_none() => {
@@ -362,6 +360,62 @@ impl Checker<'_> {
             activation_energy,
             orders,
             source: t.source.clone(),
+        })
+    }
+}
+
+impl Checker<'_> {
+    /// The visible end point: threshold, what it measures and within what factor it is known.
+    fn visible(
+        &self,
+        v: &Spanned<RawVisible>,
+        main: &crate::reference::equation::Equation,
+    ) -> Result<Visible> {
+        let r = v.get_ref();
+        let threshold = self.positive(&r.threshold, Kind::Concentration, "threshold")?;
+        // An iodine clock: the main reaction makes I2 with iodide present.
+        let iodine = main.net("I2") > 0.0 && main.species().any(|s| s == "I-");
+        let criterion = match &r.measured_as {
+            None if iodine => VisibleAs::Triiodide,
+            None => VisibleAs::Total,
+            Some(a) => match a.get_ref().trim() {
+                "triiodide" if iodine => VisibleAs::Triiodide,
+                "triiodide" => {
+                    return Err(self.err(
+                        inner(a.span(), &self.src.text),
+                        "as = \"triiodide\" needs an iodine clock: a main reaction that makes I2 from I-",
+                        "not an iodine clock",
+                        "write as = \"total\": the threshold is then the intermediate's total concentration",
+                    ))
+                }
+                "total" => VisibleAs::Total,
+                other => {
+                    return Err(self.err(
+                        inner(a.span(), &self.src.text),
+                        format!("unknown visible criterion '{other}'"),
+                        "not triiodide or total",
+                        "write as = \"triiodide\" (starch shows I3-) or as = \"total\" (the intermediate's total concentration)",
+                    ))
+                }
+            },
+        };
+        let factor = match &r.factor {
+            None => crate::spec::prior::THRESHOLD_FACTOR,
+            Some(f) if (1.0..=10.0).contains(f.get_ref()) => *f.get_ref(),
+            Some(f) => {
+                return Err(self.err(
+                    f.span(),
+                    "factor must be a number from 1 to 10",
+                    "out of range",
+                    "the threshold is known within ×/÷ this factor, e.g. factor = 1.5",
+                ))
+            }
+        };
+        Ok(Visible {
+            threshold,
+            criterion,
+            factor,
+            source: r.source.clone(),
         })
     }
 }
