@@ -487,6 +487,12 @@ fn a_run_set_that_times_badly_exits_1() {
 /// Bad reaction and forecast settings, on the forecast demo.
 const BAD_FORECAST: &[(&str, &str, &str, &str)] = &[
     (
+        "salt effect without stocks",
+        "preset = \"peroxide-iodide\"",
+        "preset = \"peroxide-iodide\"\nk_at_ionic_strength = \"0.1 M\"",
+        "k_at_ionic_strength needs the stocks",
+    ),
+    (
         "unknown visible criterion",
         "preset = \"peroxide-iodide\"",
         "preset = \"peroxide-iodide\"\nvisible = { threshold = \"10 uM\", as = \"iodine\" }",

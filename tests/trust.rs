@@ -969,3 +969,30 @@ fn the_timing_line_tune_writes_as_toml_is_accepted_when_pasted_back() {
     let forecast = run("forecast", &spec, &[]);
     assert_ne!(forecast.code, 2, "{}", forecast.stderr);
 }
+
+#[test]
+fn the_salt_effect_scales_k_to_the_runs_ionic_strength_as_davies_predicts() {
+    // The bromate demo with its k stated at infinite dilution. Its runs hold I = 50.3 mM, so by
+    // the Brønsted–Bjerrum relation with the Davies equation (Atkins and de Paula, Physical
+    // Chemistry): f(I) = √0.0503/(1 + √0.0503) − 0.3 · 0.0503 = 0.168100; Δ = −4 for
+    // k [BrO3-][I-][H+]^2; A = 0.5077 at 21 °C (tables: 0.5070 at 20 °C, 0.5108 at 25 °C).
+    // k falls by 10^(4 · 0.5077 · 0.168100) = 2.195, and every time (∝ 1/k) grows by as much.
+    let off = json(&run("plan", BROMATE, &["-f", "json"]).stdout);
+    let on_text = edit(
+        BROMATE,
+        "preset = \"bromate-iodide\"",
+        "preset = \"bromate-iodide\"\nk_at_ionic_strength = \"0 M\"",
+    );
+    let o = run("plan", &on_text, &["-f", "json"]);
+    let on = json(&o.stdout);
+    assert_eq!(on["reaction"]["k_at_ionic_strength_M"], 0.0);
+    approx::assert_relative_eq!(
+        on["runs"][0]["ionic_strength_M"].as_f64().unwrap(),
+        0.0503,
+        max_relative = 1e-9
+    );
+    let t = |r: &serde_json::Value| r["runs"][0]["forecast"]["time_s"].as_f64().unwrap();
+    approx::assert_relative_eq!(t(&on) / t(&off), 2.195, max_relative = 3e-3);
+    let sheet = run("plan", &on_text, &[]).stdout;
+    assert!(says(&sheet, "the salt effect is on"), "{sheet}");
+}

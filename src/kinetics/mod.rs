@@ -16,6 +16,7 @@
 pub mod design;
 pub mod fit;
 pub mod forecast;
+pub mod salt;
 pub mod times;
 pub mod tune;
 
@@ -77,6 +78,9 @@ pub struct RunKinetics {
     xi_clock: f64,
     /// The visible end point, when there is one.
     visible: Option<VisibleModel>,
+    /// The salt effect, when on: the run's ionic strength, the reference one, and each term's
+    /// charge product (mol/L, mol/L, −).
+    salt: Option<(f64, f64, Vec<f64>)>,
     /// Reactants (consumed while the timing reagent lasts): initial concentration and change per ξ.
     consumed: Vec<(String, f64, f64)>,
     nu: f64,
@@ -217,7 +221,26 @@ impl RunKinetics {
                 return Err(NoClock::Exhausted(s.to_string()));
             }
         }
+        let charge = |s: &str| crate::reference::species::charge(s).unwrap_or(0);
+        let salt = reaction.salt_reference.map(|i_ref| {
+            // The run's ionic strength from every species it holds, ½ Σ c z².
+            let ionic = 0.5
+                * c0.iter()
+                    .map(|(s, c)| c * (charge(s) as f64).powi(2))
+                    .sum::<f64>();
+            let deltas = reaction
+                .terms
+                .iter()
+                .map(|t| {
+                    let orders: Vec<(i32, f64)> =
+                        t.orders.iter().map(|(s, n)| (charge(s), *n)).collect();
+                    salt::charge_product(&orders)
+                })
+                .collect();
+            (ionic, i_ref, deltas)
+        });
         Ok(RunKinetics {
+            salt,
             c0: species.iter().map(|s| conc(s)).collect(),
             during: species.iter().map(|s| reaction.during(s)).collect(),
             after: species.iter().map(|s| reaction.after(s)).collect(),
@@ -284,11 +307,14 @@ impl RunKinetics {
     pub fn at_scaled(&self, t: f64, scale: f64) -> Timing {
         let xi_visible = self.visible.as_ref().map_or(0.0, |v| v.extent(t, scale));
         let mut ks = [0.0; MAX_TERMS];
-        for (slot, &(k_ref, t_ref, ea)) in ks.iter_mut().zip(&self.k) {
+        for (j, (slot, &(k_ref, t_ref, ea))) in ks.iter_mut().zip(&self.k).enumerate() {
             *slot = match ea {
                 Some(ea) => k_ref * (-ea / R * (1.0 / t - 1.0 / t_ref)).exp(),
                 None => k_ref,
             };
+            if let Some((ionic, i_ref, deltas)) = &self.salt {
+                *slot *= salt::factor(deltas[j], *ionic, *i_ref, t);
+            }
         }
         let f = |xi: f64| 1.0 / self.rate(&ks, xi);
         let clock = integrate_with_error(&f, 0.0, self.xi_clock, QUADRATURE_TOLERANCE);

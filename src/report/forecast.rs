@@ -85,6 +85,9 @@ pub struct ReactionReport {
         skip_serializing_if = "Option::is_none"
     )]
     pub triiodide_dh: Option<f64>,
+    /// The ionic strength at which k holds, when k is scaled to each run's (salt effect on).
+    #[serde(rename = "k_at_ionic_strength_M")]
+    pub k_at_ionic_strength: Option<f64>,
     pub visible_source: Option<String>,
 }
 
@@ -196,6 +199,7 @@ pub(super) fn reaction_report(r: &Reaction) -> ReactionReport {
             .collect(),
         visible_threshold: r.visible.as_ref().map(|v| sig10(v.threshold)),
         visible_as: r.visible.as_ref().map(|v| v.criterion.word()),
+        k_at_ionic_strength: r.salt_reference.map(sig10),
         visible_factor: r.visible.as_ref().map(|v| sig10(v.factor)),
         triiodide_k: r
             .visible

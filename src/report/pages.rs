@@ -49,6 +49,15 @@ fn prior_section(r: &ReactionReport, s: &ForecastSettingsReport) -> Section {
             details: t.source.iter().map(|s| format!("source: {s}")).collect(),
         });
     }
+    if let Some(i) = r.k_at_ionic_strength {
+        items.push(Item {
+            text: format!(
+                "k holds at ionic strength {} mM and is scaled to each run's by the Brønsted–Bjerrum relation with Davies activity coefficients (the salt effect is on)",
+                sig(i * 1e3, 3)
+            ),
+            details: Vec::new(),
+        });
+    }
     if let Some(v) = r.visible_threshold {
         let factor = r
             .visible_factor

@@ -707,6 +707,22 @@ impl Checker<'_> {
             None => None,
             Some(r) => Some(self.reaction(r, timing_species, &available)?),
         };
+        // The salt effect needs each run's ionic strength, which only the stocks give (the
+        // targets leave out the counter-ions).
+        if let Some(q) = raw
+            .reaction
+            .as_ref()
+            .and_then(|t| t.get_ref().k_at_ionic_strength.as_ref())
+        {
+            if !known.check {
+                return Err(self.err(
+                    inner(q.span(), &self.src.text),
+                    "k_at_ionic_strength needs the stocks: a run's ionic strength counts every ion it holds, and the targets alone leave out the counter-ions",
+                    "no stocks to count the ions",
+                    "list the [[stock]]s (and total_volume), or remove k_at_ionic_strength",
+                ));
+            }
+        }
         Ok(match reaction {
             None => None,
             Some(reaction) => Some(Prior {

@@ -72,6 +72,9 @@ pub struct Reaction {
     pub clock: Equation,
     pub terms: Vec<Term>,
     pub visible: Option<Visible>,
+    /// The ionic strength (mol/L) at which the terms' k hold, when the salt effect is on: k is
+    /// then scaled to each run's ionic strength ([`crate::kinetics::salt`]).
+    pub salt_reference: Option<f64>,
     /// The species made by the main reaction and removed by the clock reaction (e.g. I2).
     pub intermediate: String,
     /// mol of timing reagent consumed per mol of rate species.
@@ -150,6 +153,7 @@ impl Reaction {
             clock,
             terms,
             visible,
+            salt_reference: None,
             intermediate,
             nu,
             during,

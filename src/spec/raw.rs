@@ -107,6 +107,8 @@ pub(crate) struct RawReaction {
     pub(crate) clock: Option<Name>,
     pub(crate) visible: Option<Spanned<RawVisible>>,
     pub(crate) term: Option<Vec<Spanned<RawTerm>>>,
+    /// The ionic strength at which the terms' k hold (turns the salt effect on).
+    pub(crate) k_at_ionic_strength: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]

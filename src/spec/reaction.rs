@@ -245,8 +245,23 @@ impl Checker<'_> {
             Some((key, ..)) => format!("{key} (adjusted)"),
             None => raw.description.clone().unwrap_or_else(|| "custom".into()),
         };
-        Reaction::new(name, rate_species, timing.to_string(), main, clock, terms, visible)
-            .map_err(|e| mc.err(inner(main_name.span(), &mc.src.text), format!("the reaction does not make a clock: {e}"), "here", "the main reaction must consume the rate species and make what the clock reaction removes with the timing species"))
+        let mut reaction = Reaction::new(name, rate_species, timing.to_string(), main, clock, terms, visible)
+            .map_err(|e| mc.err(inner(main_name.span(), &mc.src.text), format!("the reaction does not make a clock: {e}"), "here", "the main reaction must consume the rate species and make what the clock reaction removes with the timing species"))?;
+        // The spec's own setting only: a preset's k is used as stated unless its source gives
+        // the ionic strength it holds at.
+        if let Some(q) = &raw.k_at_ionic_strength {
+            let i = self.non_negative(q, Kind::Concentration, "k_at_ionic_strength")?;
+            if i > crate::kinetics::salt::DAVIES_LIMIT {
+                return Err(self.err(
+                    inner(q.span(), &self.src.text),
+                    format!("k_at_ionic_strength: {} is beyond the Davies equation's range (up to 0.5 M)", units::concentration(i)),
+                    "too high",
+                    "give the ionic strength at which k was measured, 0 to 0.5 M",
+                ));
+            }
+            reaction.salt_reference = Some(i);
+        }
+        Ok(reaction)
     }
     /// One `[[reaction.term]]`: orders over species the runs give, k in units that match the
     /// overall order, its temperature, and the activation energy.
