@@ -198,6 +198,7 @@ mod tests {
             volumetric_uncertainty_pct: None,
             visible_extra_range_s: None,
             threshold_uncertainty_pct: None,
+            visible_extra_uncertainty_pct: None,
             max_conversion: Some(0.01),
             max_conversion_species: Some("H+".into()),
             warnings: if flagged {

@@ -42,6 +42,8 @@ pub struct ForecastReport {
     /// Relative standard uncertainty (k = 1) of the time to colour from the visible
     /// threshold's factor (half the range above, over the time), percent.
     pub threshold_uncertainty_pct: Option<f64>,
+    /// The same half range over the visible wait itself, percent.
+    pub visible_extra_uncertainty_pct: Option<f64>,
     /// Largest fraction of a reactant used up at the clock, and which one.
     pub max_conversion: Option<f64>,
     pub max_conversion_species: Option<String>,
@@ -163,6 +165,11 @@ pub(super) fn forecast_report(f: &RunForecast) -> ForecastReport {
             .visible_range
             .zip(f.time())
             .map(|((a, b), t)| sig10((b - a) / 2.0 / t * 100.0)),
+        visible_extra_uncertainty_pct: f
+            .visible_range
+            .zip(f.timing)
+            .filter(|(_, t)| t.visible_extra > 0.0)
+            .map(|((a, b), t)| sig10((b - a) / 2.0 / t.visible_extra * 100.0)),
         max_conversion: max.map(|m| sig10(m.1)),
         max_conversion_species: max.map(|m| m.0.to_string()),
         warnings: f.warnings.clone(),
