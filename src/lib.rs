@@ -86,7 +86,16 @@ fn stock_sheet(
 ) -> report::StockSheet {
     let totals = lab::totals::compute(spec, lab, solution);
     let preps = lab::recipes::prepare(lab, &totals);
-    report::build_stocks(spec, lab, &preps)
+    let uncertainty: Vec<_> = solution
+        .runs
+        .iter()
+        .map(|r| match r.same_as {
+            None => lab::uncertainty::propagate(spec, lab, r),
+            Some(_) => lab::uncertainty::RunUncertainty::default(),
+        })
+        .collect();
+    let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, &uncertainty);
+    report::build_stocks(spec, lab, &preps, &dominant)
 }
 
 /// Forecast clock times from the target concentrations alone (no stocks or glassware needed).

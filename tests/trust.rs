@@ -996,3 +996,45 @@ fn the_salt_effect_scales_k_to_the_runs_ionic_strength_as_davies_predicts() {
     let sheet = run("plan", &on_text, &[]).stdout;
     assert!(says(&sheet, "the salt effect is on"), "{sheet}");
 }
+
+#[test]
+fn an_acid_diluted_from_nominal_reagent_is_advised_for_standardizing_and_the_advice_holds() {
+    // HCl 1.00 M measured from 37 % reagent: √(1.2² + 0.2² + 0.046²) % = 1.217 %; HCl 0.100 M
+    // diluted from it: √(1.217² + 0.2² + 0.046²) % = 1.235 % by default. Its H+ enters every
+    // run alone, so the stocks sheet says to standardize it.
+    let o = run("stocks", BROMATE, &["-f", "json"]);
+    let r = json(&o.stdout);
+    let hcl = r["stocks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["name"] == "HCl 0.100 M")
+        .unwrap();
+    approx::assert_relative_eq!(
+        hcl["uncertainty_pct"].as_f64().unwrap(),
+        (1.2f64.powi(2) + 2.0 * 0.2f64.powi(2) + 2.0 * 0.046f64.powi(2)).sqrt(),
+        max_relative = 1e-3
+    );
+    let advice = r["advice"].as_array().unwrap();
+    assert_eq!(advice.len(), 1, "{advice:?}");
+    let text = advice[0].as_str().unwrap();
+    assert!(
+        text.contains("Standardize 'HCl 0.100 M'") && text.contains("H+"),
+        "{text}"
+    );
+    // Following it: the titrated stock's stated uncertainty is accepted, the advice goes and
+    // the H+ uncertainty of the runs falls.
+    let titrated = edit(
+        BROMATE,
+        "dilute_from = \"HCl 1.00 M\"",
+        "dilute_from = \"HCl 1.00 M\"\nuncertainty = \"0.3 %\"",
+    );
+    let after = json(&run("stocks", &titrated, &["-f", "json"]).stdout);
+    assert_eq!(after["advice"], serde_json::json!([]));
+    let h = |text: &str| {
+        json(&run("plan", text, &["-f", "json"]).stdout)["runs"][0]["uncertainty"]["H+"]
+            .as_f64()
+            .unwrap()
+    };
+    assert!(h(&titrated) < 0.5 * h(BROMATE));
+}

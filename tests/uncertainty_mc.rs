@@ -40,7 +40,7 @@ fn first_order_agrees_with_monte_carlo() {
         let stock_factor: Vec<f64> = lab
             .stocks
             .iter()
-            .map(|_| 1.0 + lab.stock_uncertainty * rng.normal())
+            .map(|s| 1.0 + s.uncertainty * rng.normal())
             .collect();
         let mut total = 0.0;
         let mut amount = vec![0.0; species.len()];

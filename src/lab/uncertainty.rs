@@ -29,7 +29,11 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
         .iter()
         .map(|a| delivery_u(&a.delivery, &lab.devices))
         .collect();
-    let u_stock = lab.stock_uncertainty;
+    // Each stock's own relative uncertainty (from its recipe, or as the spec states it).
+    let u_stock: Vec<f64> = adds
+        .iter()
+        .map(|a| a.stock.map_or(0.0, |s| lab.stocks[s].uncertainty))
+        .collect();
     // ∂ln cᵢ/∂V_a and the share of species i that each addition brings.
     let partials = |sp: &str| -> (Vec<f64>, Vec<f64>) {
         let amount: Vec<f64> = adds
@@ -52,7 +56,11 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
     };
     let combine = |d_v: &[f64], share: &[f64]| -> f64 {
         let vol: f64 = d_v.iter().zip(&u_add).map(|(d, u)| (d * u).powi(2)).sum();
-        let stock: f64 = share.iter().map(|w| (w * u_stock).powi(2)).sum();
+        let stock: f64 = share
+            .iter()
+            .zip(&u_stock)
+            .map(|(w, u)| (w * u).powi(2))
+            .sum();
         (vol + stock).sqrt()
     };
     // A species the run does not deliver has no relative uncertainty.
@@ -108,4 +116,54 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
             Some(combine(&g_v, &g_s))
         });
     RunUncertainty { species, time }
+}
+
+/// Below this a stock is not worth standardizing: a titration itself gives about 0.2–0.3 %
+/// (common practice).
+pub const WORTH_STANDARDIZING: f64 = 0.005;
+
+/// Stocks of at least [`WORTH_STANDARDIZING`] whose own concentration uncertainty is more than
+/// half the variance of a target species' uncertainty in some run, with those species in
+/// order: the stocks worth standardizing.
+pub fn dominant_stocks(
+    spec: &Spec,
+    lab: &Lab,
+    runs: &[RunSolution],
+    uncertainties: &[RunUncertainty],
+) -> Vec<(usize, Vec<String>)> {
+    let mut out: Vec<(usize, Vec<String>)> = Vec::new();
+    for ((r, u), run) in runs.iter().zip(uncertainties).zip(&spec.runs) {
+        if r.same_as.is_some() {
+            continue;
+        }
+        for t in &run.targets {
+            let Some(total) = u.species.iter().find(|(s, _)| *s == t.species).map(|x| x.1) else {
+                continue;
+            };
+            let amounts: Vec<(usize, f64)> = r
+                .additions
+                .iter()
+                .filter_map(|a| {
+                    a.stock
+                        .map(|s| (s, lab.stocks[s].concentration_of(&t.species) * a.volume))
+                })
+                .collect();
+            let n: f64 = amounts.iter().map(|x| x.1).sum();
+            for (s, amount) in amounts {
+                let u_s = lab.stocks[s].uncertainty;
+                let own = amount / n * u_s;
+                if n > 0.0 && u_s >= WORTH_STANDARDIZING && own * own > 0.5 * total * total {
+                    match out.iter_mut().find(|(x, _)| *x == s) {
+                        Some((_, list)) if !list.contains(&t.species) => {
+                            list.push(t.species.clone())
+                        }
+                        Some(_) => {}
+                        None => out.push((s, vec![t.species.clone()])),
+                    }
+                }
+            }
+        }
+    }
+    out.sort_by_key(|x| x.0);
+    out
 }

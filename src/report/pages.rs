@@ -547,10 +547,18 @@ impl StockSheet {
             ],
             rows,
         )));
+        if !self.advice.is_empty() {
+            table.push(Block::Warnings(self.advice.clone()));
+        }
         let mut sections = vec![head, table];
         for s in &self.stocks {
             let mut sec = Section::new(s.name.clone());
             sec.para(s.recipe.text.clone());
+            sec.para(format!(
+                "Concentration uncertainty: {} % (k = 1; {}).",
+                sig(s.uncertainty_pct, 2),
+                s.uncertainty_basis
+            ));
             if s.drawn_ml > 0.0 {
                 sec.para(format!(
                     "Includes {:.1} mL drawn to make other stocks.",

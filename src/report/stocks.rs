@@ -16,12 +16,17 @@ pub struct StockSheet {
     #[serde(rename = "overage_pct")]
     pub overage_pct: f64,
     pub stocks: Vec<StockPrep>,
+    /// Stocks worth standardizing: their own uncertainty is most of a target's in some run.
+    pub advice: Vec<String>,
     pub cautions: Vec<String>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StockPrep {
     pub name: String,
+    /// Relative standard uncertainty (k = 1) of its concentration, percent, and its basis.
+    pub uncertainty_pct: f64,
+    pub uncertainty_basis: String,
     pub solute: Option<String>,
     #[serde(rename = "molar_mass_g_per_mol")]
     pub molar_mass: Option<f64>,
@@ -67,7 +72,21 @@ pub fn build_stocks(
     spec: &Spec,
     lab: &Lab,
     preps: &[crate::lab::recipes::Preparation],
+    dominant: &[(usize, Vec<String>)],
 ) -> StockSheet {
+    let advice = dominant
+        .iter()
+        .map(|(s, species)| {
+            let st = &lab.stocks[*s];
+            format!(
+                "Standardize '{}' (u {} %: {}): it is most of the uncertainty of {} in the runs; once titrated, give its uncertainty in its [[stock]], e.g. uncertainty = \"0.3 %\".",
+                st.name,
+                crate::units::sig(st.uncertainty * 100.0, 2),
+                st.uncertainty_basis,
+                species.join(", ")
+            )
+        })
+        .collect();
     use crate::lab::recipes::Action;
     use crate::spec::Recipe;
     let stocks = preps
@@ -120,6 +139,8 @@ pub fn build_stocks(
             let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
             StockPrep {
                 name: st.name.clone(),
+                uncertainty_pct: sig10(st.uncertainty * 100.0),
+                uncertainty_basis: st.uncertainty_basis.clone(),
                 solute: st.solute.clone(),
                 molar_mass: molar_mass.map(sig10),
                 solute_concentration: solute_concentration.map(sig10),
@@ -162,6 +183,7 @@ pub fn build_stocks(
         replicates: spec.replicates,
         overage_pct: sig10(lab.overage * 100.0),
         stocks,
+        advice,
         cautions: reagents::cautions(used),
     }
 }

@@ -62,6 +62,9 @@ pub struct Stock {
     pub recipe: Recipe,
     /// False for a bench concentrate that is only diluted to make other stocks.
     pub in_runs: bool,
+    /// Relative standard uncertainty (k = 1) of its concentrations, and where it comes from.
+    pub uncertainty: f64,
+    pub uncertainty_basis: String,
 }
 
 /// How a stock is made up in its volumetric flask.
@@ -260,8 +263,9 @@ pub struct Lab {
     pub tolerance: f64,
     /// Volumetric flask sizes (L), ascending.
     pub flasks: Vec<f64>,
-    /// Relative standard uncertainty of every stock's concentration.
-    pub stock_uncertainty: f64,
+    /// `[plan] stock_uncertainty` when the spec gives it: every stock without its own
+    /// `uncertainty` then takes it instead of its recipe's default.
+    pub stock_uncertainty: Option<f64>,
     pub stocks: Vec<Stock>,
     pub devices: Vec<Device>,
     /// Where each device's name is written in the spec.

@@ -17,7 +17,7 @@ struct LabSettings {
     overage: f64,
     tolerance: f64,
     flasks: Vec<f64>,
-    stock_uncertainty: f64,
+    stock_uncertainty: Option<f64>,
 }
 
 /// The devices by name, for resolving `devices = [...]` lists.
@@ -50,7 +50,7 @@ impl Checker<'_> {
         };
         let temperature = self.temperature(plan)?;
         let shelf = self.shelf(&raw)?;
-        let stocks = self.stocks(&raw, &shelf)?;
+        let stocks = self.stocks(&raw, &shelf, settings.stock_uncertainty)?;
         // A forecast needs no stocks; when a forecast-only spec lists none, species are not
         // checked against them.
         if self.purpose == Purpose::Plan && stocks.is_empty() {
@@ -247,11 +247,11 @@ impl Checker<'_> {
         })
     }
 
-    /// Weighing and making up to the mark: about 0.3 % by default (common practice for class
-    /// A flasks and an analytical balance).
-    fn stock_uncertainty(&self, plan: &RawPlan) -> Result<f64> {
+    /// One relative uncertainty for every stock, when the spec gives it (else each stock's
+    /// recipe gives its own, [`super::stocks::recipe_uncertainty`]).
+    fn stock_uncertainty(&self, plan: &RawPlan) -> Result<Option<f64>> {
         Ok(match &plan.stock_uncertainty {
-            None => 0.003,
+            None => None,
             Some(q) => {
                 let v = self.qty(q, Kind::Fraction, "stock_uncertainty")?;
                 if !(0.0..=0.2).contains(&v) {
@@ -262,7 +262,7 @@ impl Checker<'_> {
                         "e.g. stock_uncertainty = \"0.3 %\"",
                     ));
                 }
-                v
+                Some(v)
             }
         })
     }
@@ -341,7 +341,7 @@ impl Checker<'_> {
         }
     }
 
-    fn stocks(&self, raw: &RawSpec, shelf: &Shelf) -> Result<Vec<Stock>> {
+    fn stocks(&self, raw: &RawSpec, shelf: &Shelf, plan_u: Option<f64>) -> Result<Vec<Stock>> {
         let mut stocks: Vec<Stock> = Vec::new();
         for s in &raw.stock {
             let r = s.get_ref();
@@ -400,7 +400,25 @@ impl Checker<'_> {
                 ));
             }
             let recipe = self.recipe(r, &name, &contains, &stocks)?;
+            let (uncertainty, uncertainty_basis) = match (&r.uncertainty, plan_u) {
+                (Some(q), _) => {
+                    let v = self.qty(q, Kind::Fraction, "uncertainty")?;
+                    if !(0.0..=0.2).contains(&v) {
+                        return Err(self.err(
+                            inner(q.span(), &self.src.text),
+                            "uncertainty must be from 0 % to 20 %",
+                            "out of range",
+                            "the relative standard uncertainty of its concentration, e.g. uncertainty = \"0.2 %\" for a standardized stock",
+                        ));
+                    }
+                    (v, "stated in the spec".to_string())
+                }
+                (None, Some(u)) => (u, "[plan] stock_uncertainty".to_string()),
+                (None, None) => super::stocks::recipe_uncertainty(&recipe, &stocks),
+            };
             stocks.push(Stock {
+                uncertainty,
+                uncertainty_basis,
                 recipe,
                 in_runs: r.in_runs.unwrap_or(true),
                 name,

@@ -169,6 +169,8 @@ pub(crate) struct RawStock {
     pub(crate) dilute_from: Option<Name>,
     pub(crate) concentrate: Option<Spanned<RawConcentrate>>,
     pub(crate) in_runs: Option<bool>,
+    /// Relative standard uncertainty of its concentration (overrides the recipe's default).
+    pub(crate) uncertainty: Option<Q>,
 }
 
 /// A liquid reagent measured by volume: concentrated acid, 30 % peroxide.

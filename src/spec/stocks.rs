@@ -430,3 +430,53 @@ impl Checker<'_> {
         Ok(Recipe::Dilute { from: i, factor })
     }
 }
+
+/// Standard uncertainties (relative, k = 1) behind a stock's default uncertainty.
+pub mod defaults {
+    /// Making up to the mark in a class A volumetric flask: ASTM E288 (from memory) allows
+    /// ±0.08 mL in 100 mL to ±0.30 mL in 1000 mL; the worst, read as rectangular, 0.046 %.
+    pub const FLASK: f64 = 0.000_46;
+    /// Weighing a solid on an analytical balance with a mass of a thousand readabilities or
+    /// more (common practice).
+    pub const WEIGHING: f64 = 0.001;
+    /// Measuring out a liquid concentrate or an aliquot of a stock with a class A transfer
+    /// pipet or buret of 10 mL or more (from memory).
+    pub const ALIQUOT: f64 = 0.002;
+    /// A concentrate of nominal strength, e.g. hydrochloric acid sold as 36.5–38.0 % (the
+    /// ACS reagent range, from memory): ±2 % of 37.25 %, rectangular, 1.2 %.
+    pub const CONCENTRATE: f64 = 0.012;
+    /// A stock made up by a method clockprep does not know (no solute formula).
+    pub const BY_METHOD: f64 = 0.01;
+}
+
+/// A stock's default relative uncertainty from how it is made, and a note of where it comes
+/// from. A dilution carries its source's uncertainty with the aliquot's and the flask's.
+pub fn recipe_uncertainty(recipe: &Recipe, earlier: &[Stock]) -> (f64, String) {
+    use defaults::*;
+    let rss = |parts: &[f64]| parts.iter().map(|u| u * u).sum::<f64>().sqrt();
+    match recipe {
+        Recipe::Weigh { purity, .. } => {
+            // A label's assay is a minimum: the true purity lies between it and 100 %.
+            let assay = (1.0 - purity).max(0.0) / 12f64.sqrt();
+            (
+                rss(&[assay, WEIGHING, FLASK]),
+                "weighed solid: assay range, weighing and flask".into(),
+            )
+        }
+        Recipe::Measure { .. } => (
+            rss(&[CONCENTRATE, ALIQUOT, FLASK]),
+            "diluted from a concentrate of nominal strength; standardize it for better".into(),
+        ),
+        Recipe::Dilute { from, .. } => {
+            let parent = &earlier[*from];
+            (
+                rss(&[parent.uncertainty, ALIQUOT, FLASK]),
+                format!(
+                    "diluted from '{}': its uncertainty, the aliquot and the flask",
+                    parent.name
+                ),
+            )
+        }
+        _ => (BY_METHOD, "made by its own method: 1 % assumed".into()),
+    }
+}
