@@ -67,6 +67,19 @@ impl Rows {
         );
         self.value(run, "forecast", "time_s", opt(f.time_s));
         self.value(run, "forecast", "clock_s", opt(f.clock_s));
+        if f.visible_extra_s.is_some() {
+            self.value(run, "forecast", "visible_extra_s", opt(f.visible_extra_s));
+        }
+        if let Some([lo, hi]) = f.visible_extra_range_s {
+            self.value(run, "forecast", "visible_extra_low_s", lo.to_string());
+            self.value(run, "forecast", "visible_extra_high_s", hi.to_string());
+            self.value(
+                run,
+                "forecast",
+                "threshold_uncertainty_pct",
+                opt(f.threshold_uncertainty_pct),
+            );
+        }
         self.value(run, "forecast", "band_fast_s", opt(f.band_s.map(|b| b[0])));
         self.value(run, "forecast", "band_slow_s", opt(f.band_s.map(|b| b[1])));
         self.value(run, "forecast", "initial_rate_s", opt(f.initial_rate_s));

@@ -211,6 +211,14 @@ impl RunKinetics {
         };
         // After the clock, a reactant may not run out before the colour shows either (judged
         // at 25 °C and the stated threshold; a hotter or colder run moves it little).
+        // Triiodide needs iodide: a run that lists none cannot show it.
+        if visible
+            .as_ref()
+            .is_some_and(|v| v.criterion == VisibleAs::Triiodide)
+            && conc("I-") <= 0.0
+        {
+            return Err(NoClock::Missing("I-".into()));
+        }
         let xi_visible = visible.as_ref().map_or(0.0, |v| v.extent(298.15, 1.0));
         if !xi_visible.is_finite() {
             return Err(NoClock::Exhausted("I-".into()));
@@ -605,6 +613,24 @@ mod tests {
             orders: orders.iter().map(|(s, n)| (s.to_string(), *n)).collect(),
             source: None,
         }
+    }
+
+    #[test]
+    fn a_triiodide_end_point_without_iodide_in_the_run_says_iodide_is_absent() {
+        // A rate law without iodide (first order in bromate alone) and a run that lists none:
+        // the colour cannot show as triiodide, and the reason names the missing iodide.
+        let mut r = bromate(vec![term(1.0, &[("BrO3-", 1.0)])]);
+        r.visible = Some(crate::spec::Visible {
+            threshold: 1e-5,
+            criterion: VisibleAs::Triiodide,
+            factor: 1.5,
+            source: None,
+        });
+        let c0 = [("BrO3-".to_string(), 0.008), ("H+".to_string(), 0.02)];
+        assert_eq!(
+            RunKinetics::new(&r, &c0, 1e-4).unwrap_err(),
+            NoClock::Missing("I-".into())
+        );
     }
 
     #[test]
