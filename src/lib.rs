@@ -28,7 +28,8 @@ pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
-    report_of(&spec, lab, &solution)
+    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
+    report_of(&spec, lab, &solution, &uncertainty)
 }
 
 /// The mixing sheet and the stock sheet of one spec from one solve.
@@ -36,9 +37,11 @@ pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, repor
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
+    // One propagation serves both sheets.
+    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
     Ok((
-        report_of(&spec, lab, &solution)?,
-        stock_sheet(&spec, lab, &solution),
+        report_of(&spec, lab, &solution, &uncertainty)?,
+        stock_sheet(&spec, lab, &solution, &uncertainty),
     ))
 }
 
@@ -46,6 +49,7 @@ fn report_of(
     spec: &spec::Spec,
     lab: &spec::Lab,
     solution: &solve::Solution,
+    uncertainty: &[lab::uncertainty::RunUncertainty],
 ) -> Result<report::PlanReport> {
     let mixing = lab::portions::split(spec, lab, solution)?;
     let totals = lab::totals::compute(spec, lab, solution);
@@ -58,16 +62,6 @@ fn report_of(
         .prior
         .as_ref()
         .map(|p| kinetics::forecast::forecast(spec, p, &initial));
-    // A run that repeats an earlier one's targets shares its report; only distinct runs need
-    // their uncertainty propagated.
-    let uncertainty: Vec<_> = solution
-        .runs
-        .iter()
-        .map(|r| match r.same_as {
-            None => lab::uncertainty::propagate(spec, lab, r),
-            Some(_) => lab::uncertainty::RunUncertainty::default(),
-        })
-        .collect();
     Ok(report::build(
         spec,
         lab,
@@ -75,7 +69,7 @@ fn report_of(
         &mixing,
         &totals,
         forecast.as_ref(),
-        &uncertainty,
+        uncertainty,
     ))
 }
 
@@ -83,18 +77,11 @@ fn stock_sheet(
     spec: &spec::Spec,
     lab: &spec::Lab,
     solution: &solve::Solution,
+    uncertainty: &[lab::uncertainty::RunUncertainty],
 ) -> report::StockSheet {
     let totals = lab::totals::compute(spec, lab, solution);
     let preps = lab::recipes::prepare(lab, &totals);
-    let uncertainty: Vec<_> = solution
-        .runs
-        .iter()
-        .map(|r| match r.same_as {
-            None => lab::uncertainty::propagate(spec, lab, r),
-            Some(_) => lab::uncertainty::RunUncertainty::default(),
-        })
-        .collect();
-    let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, &uncertainty);
+    let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, uncertainty);
     report::build_stocks(spec, lab, &preps, &dominant)
 }
 
@@ -116,7 +103,8 @@ pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
-    Ok(stock_sheet(&spec, lab, &solution))
+    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
+    Ok(stock_sheet(&spec, lab, &solution, &uncertainty))
 }
 
 /// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,

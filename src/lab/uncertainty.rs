@@ -118,6 +118,23 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
     RunUncertainty { species, time }
 }
 
+/// Every run's uncertainties, propagated once per distinct recipe: a run that repeats an
+/// earlier one's targets (`same_as`) gets an empty entry, as the report shares the first's.
+pub fn propagate_distinct(
+    spec: &Spec,
+    lab: &Lab,
+    solution: &crate::solve::Solution,
+) -> Vec<RunUncertainty> {
+    solution
+        .runs
+        .iter()
+        .map(|r| match r.same_as {
+            None => propagate(spec, lab, r),
+            Some(_) => RunUncertainty::default(),
+        })
+        .collect()
+}
+
 /// Below this a stock is not worth standardizing: a titration itself gives about 0.2–0.3 %
 /// (common practice).
 pub const WORTH_STANDARDIZING: f64 = 0.005;
@@ -149,10 +166,13 @@ pub fn dominant_stocks(
                 })
                 .collect();
             let n: f64 = amounts.iter().map(|x| x.1).sum();
+            if n <= 0.0 {
+                continue;
+            }
             for (s, amount) in amounts {
                 let u_s = lab.stocks[s].uncertainty;
                 let own = amount / n * u_s;
-                if n > 0.0 && u_s >= WORTH_STANDARDIZING && own * own > 0.5 * total * total {
+                if u_s >= WORTH_STANDARDIZING && own * own > 0.5 * total * total {
                     match out.iter_mut().find(|(x, _)| *x == s) {
                         Some((_, list)) if !list.contains(&t.species) => {
                             list.push(t.species.clone())
