@@ -230,6 +230,20 @@ impl Checker<'_> {
         Ok(v)
     }
 
+    /// A fraction (written as a percentage) from 0 to `max`, refused outside with `hint`.
+    pub(super) fn fraction_up_to(&self, q: &Q, field: &str, max: f64, hint: &str) -> Result<f64> {
+        let v = self.qty(q, Kind::Fraction, field)?;
+        if !(0.0..=max).contains(&v) {
+            return Err(self.err(
+                inner(q.span(), &self.src.text),
+                format!("{field} must be from 0 % to {} %", max * 100.0),
+                "out of range",
+                hint,
+            ));
+        }
+        Ok(v)
+    }
+
     /// Zero or a positive value in the lab's range.
     pub(super) fn non_negative(&self, q: &Q, kind: Kind, field: &str) -> Result<f64> {
         let v = self.qty(q, kind, field)?;

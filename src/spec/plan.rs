@@ -171,18 +171,7 @@ impl Checker<'_> {
     fn overage(&self, plan: &RawPlan) -> Result<f64> {
         Ok(match &plan.overage {
             None => 0.10,
-            Some(q) => {
-                let v = self.qty(q, Kind::Fraction, "overage")?;
-                if !(0.0..=2.0).contains(&v) {
-                    return Err(self.err(
-                        inner(q.span(), &self.src.text),
-                        "overage must be from 0 % to 200 %",
-                        "out of range",
-                        "e.g. overage = \"15 %\"",
-                    ));
-                }
-                v
-            }
+            Some(q) => self.fraction_up_to(q, "overage", 2.0, "e.g. overage = \"15 %\"")?,
         })
     }
 
@@ -252,18 +241,12 @@ impl Checker<'_> {
     fn stock_uncertainty(&self, plan: &RawPlan) -> Result<Option<f64>> {
         Ok(match &plan.stock_uncertainty {
             None => None,
-            Some(q) => {
-                let v = self.qty(q, Kind::Fraction, "stock_uncertainty")?;
-                if !(0.0..=0.2).contains(&v) {
-                    return Err(self.err(
-                        inner(q.span(), &self.src.text),
-                        "stock_uncertainty must be from 0 % to 20 %",
-                        "out of range",
-                        "e.g. stock_uncertainty = \"0.3 %\"",
-                    ));
-                }
-                Some(v)
-            }
+            Some(q) => Some(self.fraction_up_to(
+                q,
+                "stock_uncertainty",
+                0.2,
+                "e.g. stock_uncertainty = \"0.3 %\"",
+            )?),
         })
     }
 
@@ -401,18 +384,10 @@ impl Checker<'_> {
             }
             let recipe = self.recipe(r, &name, &contains, &stocks)?;
             let (uncertainty, uncertainty_basis) = match (&r.uncertainty, plan_u) {
-                (Some(q), _) => {
-                    let v = self.qty(q, Kind::Fraction, "uncertainty")?;
-                    if !(0.0..=0.2).contains(&v) {
-                        return Err(self.err(
-                            inner(q.span(), &self.src.text),
-                            "uncertainty must be from 0 % to 20 %",
-                            "out of range",
-                            "the relative standard uncertainty of its concentration, e.g. uncertainty = \"0.2 %\" for a standardized stock",
-                        ));
-                    }
-                    (v, "stated in the spec".to_string())
-                }
+                (Some(q), _) => (
+                    self.fraction_up_to(q, "uncertainty", 0.2, "the relative standard uncertainty of its concentration, e.g. uncertainty = \"0.2 %\" for a standardized stock")?,
+                    "stated in the spec".to_string(),
+                ),
                 (None, Some(u)) => (u, "[plan] stock_uncertainty".to_string()),
                 (None, None) => super::stocks::recipe_uncertainty(&recipe, &stocks),
             };
