@@ -110,10 +110,8 @@ pub fn forecast(spec: &Spec, prior: &Prior, initial: &[Vec<(String, f64)>]) -> F
             let factor = reaction.visible.as_ref().map_or(1.0, |v| v.factor);
             let (at_warm, at_cool) = kin.band_ends(t, settings.band, factor);
             if factor > 1.0 {
-                out.visible_range = Some((
-                    kin.at_scaled(t, 1.0 / factor).visible_extra,
-                    kin.at_scaled(t, factor).visible_extra,
-                ));
+                out.visible_range =
+                    Some((kin.visible_wait(t, 1.0 / factor), kin.visible_wait(t, factor)));
             }
             let fast = at_warm.to_colour();
             let slow = at_cool.to_colour();

@@ -313,38 +313,10 @@ impl RunKinetics {
 
     /// Forecast at `t` (K) with the visible threshold scaled by `scale` (for its uncertainty).
     pub fn at_scaled(&self, t: f64, scale: f64) -> Timing {
-        let xi_visible = self.visible.as_ref().map_or(0.0, |v| v.extent(t, scale));
-        let mut ks = [0.0; MAX_TERMS];
-        for (j, (slot, &(k_ref, t_ref, ea))) in ks.iter_mut().zip(&self.k).enumerate() {
-            *slot = match ea {
-                Some(ea) => k_ref * (-ea / R * (1.0 / t - 1.0 / t_ref)).exp(),
-                None => k_ref,
-            };
-            if let Some((ionic, i_ref, deltas)) = &self.salt {
-                *slot *= salt::factor(deltas[j], *ionic, *i_ref, t);
-            }
-        }
+        let ks = self.ks(t);
         let f = |xi: f64| 1.0 / self.rate(&ks, xi);
         let clock = integrate_with_error(&f, 0.0, self.xi_clock, QUADRATURE_TOLERANCE);
-        let visible = if !xi_visible.is_finite() {
-            // The iodide is gone before the triiodide shows.
-            Quadrature {
-                value: f64::INFINITY,
-                error: f64::INFINITY,
-            }
-        } else if xi_visible > 0.0 {
-            integrate_with_error(
-                &f,
-                self.xi_clock,
-                self.xi_clock + xi_visible,
-                QUADRATURE_TOLERANCE,
-            )
-        } else {
-            Quadrature {
-                value: 0.0,
-                error: 0.0,
-            }
-        };
+        let visible = self.visible_quadrature(&ks, t, scale);
         let rate0 = self.rate(&ks, 0.0);
         let total = Quadrature {
             value: clock.value + visible.value,
@@ -357,6 +329,52 @@ impl RunKinetics {
             rate0,
             relative_error: total.relative_error(),
         }
+    }
+
+    /// The wait from the clock to visible colour at `t` (K) with the threshold scaled by
+    /// `scale`, s, without the clock's own integral.
+    pub fn visible_wait(&self, t: f64, scale: f64) -> f64 {
+        self.visible_quadrature(&self.ks(t), t, scale).value
+    }
+
+    /// Each term's k at `t` (K): Arrhenius, then the salt effect when it is on.
+    fn ks(&self, t: f64) -> [f64; MAX_TERMS] {
+        let mut ks = [0.0; MAX_TERMS];
+        for (j, (slot, &(k_ref, t_ref, ea))) in ks.iter_mut().zip(&self.k).enumerate() {
+            *slot = match ea {
+                Some(ea) => k_ref * (-ea / R * (1.0 / t - 1.0 / t_ref)).exp(),
+                None => k_ref,
+            };
+            if let Some((ionic, i_ref, deltas)) = &self.salt {
+                *slot *= salt::factor(deltas[j], *ionic, *i_ref, t);
+            }
+        }
+        ks
+    }
+
+    /// The integral from the clock to visible colour.
+    fn visible_quadrature(&self, ks: &[f64; MAX_TERMS], t: f64, scale: f64) -> Quadrature {
+        let xi_visible = self.visible.as_ref().map_or(0.0, |v| v.extent(t, scale));
+        if !xi_visible.is_finite() {
+            // The iodide is gone before the triiodide shows.
+            return Quadrature {
+                value: f64::INFINITY,
+                error: f64::INFINITY,
+            };
+        }
+        if xi_visible <= 0.0 {
+            return Quadrature {
+                value: 0.0,
+                error: 0.0,
+            };
+        }
+        let f = |xi: f64| 1.0 / self.rate(ks, xi);
+        integrate_with_error(
+            &f,
+            self.xi_clock,
+            self.xi_clock + xi_visible,
+            QUADRATURE_TOLERANCE,
+        )
     }
 
     /// Fraction of each reactant used up when the timing reagent runs out.
