@@ -306,7 +306,7 @@ fn volumetric_combination(
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
 
     pub(crate) fn buret() -> Device {
@@ -324,7 +324,8 @@ mod tests {
         }
     }
 
-    fn pipet(ml: f64) -> Device {
+    /// A class A volumetric pipet of `ml` mL that takes up to two fills.
+    pub(crate) fn pipet(ml: f64) -> Device {
         Device {
             name: format!("{ml} mL pipet"),
             kind: DeviceKind::VolumetricPipet,

@@ -868,28 +868,13 @@ fn why(spec: &Spec, lab: &Lab, h: &HolderData, o: usize, forced: &[usize]) -> St
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::reference::glassware::Class;
-
-    fn pipet(ml: f64, fills: u32) -> Device {
-        Device {
-            name: format!("{ml} mL pipet"),
-            kind: DeviceKind::VolumetricPipet,
-            class: Some(Class::A),
-            step: ml * 1e-3,
-            min: ml * 1e-3,
-            max: fills as f64 * ml * 1e-3,
-            max_fills: fills,
-            per_station: None,
-            shared: false,
-            dead_volume: ml * 1e-3,
-        }
-    }
+    use crate::reference::glassware::tests::pipet;
 
     #[test]
     fn volumetric_pipets_combine_into_every_sum_with_the_fewest_fills() {
         // 10 mL (up to 2 fills) and 5 mL (up to 2): 5, 10, 15, 20, 25, 30 mL; 10 mL is one
         // fill of the 10 mL pipet rather than two of the 5 mL one.
-        let devices = vec![pipet(10.0, 2), pipet(5.0, 2)];
+        let devices = vec![pipet(10.0), pipet(5.0)];
         let table = combinations(&[0, 1], &devices, 0.05);
         let volumes: Vec<f64> = table.iter().map(|(v, _)| (v * 1e3).round()).collect();
         assert_eq!(volumes, vec![5.0, 10.0, 15.0, 20.0, 25.0, 30.0]);
@@ -898,7 +883,7 @@ mod tests {
 
     #[test]
     fn a_shared_pipet_is_one_per_station_and_a_buret_never_is() {
-        let mut p = pipet(1.0, 1);
+        let mut p = pipet(1.0);
         assert_eq!(units_needed(&p, 3), 3);
         p.shared = true;
         assert_eq!(units_needed(&p, 3), 1);
