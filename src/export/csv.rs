@@ -96,6 +96,23 @@ impl Rows {
         }
     }
 
+    /// A row of the whole plan (no run, vessel or concentrations): name, mL, device, value.
+    fn plan_row(&mut self, row: &str, name: &str, ml: String, device: String, value: String) {
+        let e = String::new;
+        self.put([
+            e(),
+            row.into(),
+            name.into(),
+            e(),
+            ml,
+            device,
+            e(),
+            e(),
+            e(),
+            value,
+        ]);
+    }
+
     fn finish(self) -> Vec<u8> {
         self.0.into_inner().expect("writing to memory cannot fail")
     }
@@ -173,46 +190,25 @@ impl Exporter for Csv {
             w.value("", "warning", f.code, f.message.clone());
         }
         for g in &report.glassware {
-            w.put([
-                e(),
-                "station_device".into(),
-                g.device.clone(),
-                e(),
+            w.plan_row(
+                "station_device",
+                &g.device,
                 g.dead_volume_ml.to_string(),
                 g.holds.join("; "),
-                e(),
-                e(),
-                e(),
                 g.per_station.to_string(),
-            ]);
+            );
         }
         for t in &report.tray {
-            w.put([
-                e(),
-                "tray".into(),
-                t.stock.clone(),
-                e(),
-                t.fill_ml.to_string(),
-                e(),
-                e(),
-                e(),
-                e(),
-                e(),
-            ]);
+            w.plan_row("tray", &t.stock, t.fill_ml.to_string(), e(), e());
         }
         for t in &report.stock_totals {
-            w.put([
-                e(),
-                "stock_total".into(),
-                t.stock.clone(),
-                e(),
+            w.plan_row(
+                "stock_total",
+                &t.stock,
                 t.ml.to_string(),
                 format!("{} x {} mL flask", t.flask_count, t.flask_ml),
                 e(),
-                e(),
-                e(),
-                e(),
-            ]);
+            );
         }
         w.finish()
     }
