@@ -66,19 +66,11 @@ fn table() -> &'static Vec<Parsed> {
     })
 }
 
-/// The nominal capacity a device's tolerance is looked up by.
-fn nominal(d: &Device) -> f64 {
-    if d.is_volumetric() {
-        d.step
-    } else {
-        d.max
-    }
-}
-
 /// The tolerance of a device: its kind's row at its capacity (or the next larger listed), class
 /// B taken as twice class A when the class is B or not stated.
 pub fn tolerance(d: &Device) -> Tolerance {
-    let cap = nominal(d);
+    // Looked up by its nominal capacity: one fill of a volumetric pipet, else its capacity.
+    let cap = d.nominal();
     let rows: Vec<&Parsed> = table().iter().filter(|r| r.0 == d.kind).collect();
     let row = rows
         .iter()

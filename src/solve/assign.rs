@@ -51,12 +51,6 @@ pub struct Assignment {
     pub choices: Vec<Choice>,
 }
 
-impl Assignment {
-    pub fn of(&self, holder: Holder) -> Option<&Choice> {
-        self.choices.iter().find(|c| c.holder == holder)
-    }
-}
-
 /// A distinct set of targets: the first run that has it, and how many runs share it.
 #[derive(Debug, Clone, Copy)]
 pub(super) struct Distinct {

@@ -95,16 +95,7 @@ impl Checker<'_> {
             Some(s) => *s.get_ref(),
             None => false,
         };
-        let nominal = if kind == DeviceKind::VolumetricPipet {
-            step
-        } else {
-            max
-        };
-        let dead_volume = match &r.dead_volume {
-            None => Device::default_dead_volume(kind, nominal),
-            Some(q) => self.non_negative(q, Kind::Volume, "dead_volume")?,
-        };
-        Ok(Device {
+        let mut device = Device {
             name,
             kind,
             class,
@@ -114,8 +105,13 @@ impl Checker<'_> {
             max_fills,
             per_station,
             shared,
-            dead_volume,
-        })
+            dead_volume: 0.0,
+        };
+        device.dead_volume = match &r.dead_volume {
+            None => Device::default_dead_volume(kind, device.nominal()),
+            Some(q) => self.non_negative(q, Kind::Volume, "dead_volume")?,
+        };
+        Ok(device)
     }
 
     fn device_class(&self, r: &RawDevice) -> Result<Option<Class>> {
