@@ -257,7 +257,8 @@ pub(super) fn assign(
         distinct,
         holders: &holders,
         water_ways: &water_ways,
-        limits: true,
+        // Without any `per_station`, every node fits: skip counting at each one.
+        limits: lab.devices.iter().any(|d| d.per_station.is_some()),
     };
     let best = match search.run() {
         Some(b) => b,
