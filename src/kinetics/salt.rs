@@ -9,8 +9,7 @@
 //! the reference ionic strength I₀ and the run's I, k changes by 10^(A Δ f(I) − A Δ f(I₀)),
 //! with Δ = (Σ nᵢ zᵢ)² − Σ nᵢ zᵢ² (−4 for k [BrO₃⁻][I⁻][H⁺]²: the rate falls as I rises).
 
-/// The Davies equation is used up to this ionic strength (mol/L).
-pub const DAVIES_LIMIT: f64 = 0.5;
+pub use crate::spec::DAVIES_LIMIT;
 
 /// f(I) = √I/(1 + √I) − 0.3 I of the Davies equation.
 pub fn davies(i: f64) -> f64 {

@@ -46,6 +46,10 @@ impl VisibleAs {
     }
 }
 
+/// The salt effect's Davies equation is used up to this ionic strength (mol/L); the spec
+/// refuses a reference ionic strength above it.
+pub const DAVIES_LIMIT: f64 = 0.5;
+
 /// Default factor within which a visible threshold is known (k = 1, ×/÷), when the spec gives
 /// none: from memory, the starch end point seen by eye varies by about half again with the
 /// starch's age, the lighting and the observer.
@@ -73,7 +77,7 @@ pub struct Reaction {
     pub terms: Vec<Term>,
     pub visible: Option<Visible>,
     /// The ionic strength (mol/L) at which the terms' k hold, when the salt effect is on: k is
-    /// then scaled to each run's ionic strength ([`crate::kinetics::salt`]).
+    /// then scaled to each run's ionic strength (the kinetics stage's salt module).
     pub salt_reference: Option<f64>,
     /// The species made by the main reaction and removed by the clock reaction (e.g. I2).
     pub intermediate: String,

@@ -251,7 +251,7 @@ impl Checker<'_> {
         // the ionic strength it holds at.
         if let Some(q) = &raw.k_at_ionic_strength {
             let i = self.non_negative(q, Kind::Concentration, "k_at_ionic_strength")?;
-            if i > crate::kinetics::salt::DAVIES_LIMIT {
+            if i > crate::spec::DAVIES_LIMIT {
                 return Err(self.err(
                     inner(q.span(), &self.src.text),
                     format!("k_at_ionic_strength: {} is beyond the Davies equation's range (up to 0.5 M)", units::concentration(i)),
