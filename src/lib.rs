@@ -196,26 +196,30 @@ pub fn design(source: SpecSource) -> Result<report::DesignSheet> {
     let d = spec.need_design()?;
     let runs = kinetics::design::generate(d);
     let designed = kinetics::design::with_runs(&spec, &runs);
-    // Per-run volumetric error: propagated through the glassware when the spec lists it.
-    let flat = vec![d.volumetric_error; runs.len()];
-    let (volumetric, warnings) = match &designed.lab {
-        None => (flat, Vec::new()),
+    // Each run's error sources: through the stocks and glassware when the spec lists them and
+    // the run has a forecast time, else the spec's flat volumetric error in every trial.
+    let flat = |_: usize| kinetics::design::RunErrors {
+        trial: d.volumetric_error,
+        ..Default::default()
+    };
+    let (errors, warnings): (Vec<_>, Vec<String>) = match &designed.lab {
+        None => ((0..runs.len()).map(flat).collect(), Vec::new()),
         Some(lab) => match solve::solve(&designed, lab) {
             Ok(sol) => (
                 sol.runs
                     .iter()
-                    .map(|r| {
-                        lab::uncertainty::propagate(&designed, lab, r)
-                            .time
-                            .unwrap_or(d.volumetric_error)
+                    .enumerate()
+                    .map(|(i, r)| {
+                        lab::uncertainty::design_errors(&designed, lab, r)
+                            .unwrap_or_else(|| flat(i))
                     })
                     .collect(),
                 Vec::new(),
             ),
-            Err(e) => (flat, vec![format!("the designed runs cannot all be made with these stocks and glassware ({}); assumed {} % volumetric error", e.message(), d.volumetric_error * 100.0)]),
+            Err(e) => ((0..runs.len()).map(flat).collect(), vec![format!("the designed runs cannot all be made with these stocks and glassware ({}); assumed {} % volumetric error", e.message(), d.volumetric_error * 100.0)]),
         },
     };
-    let report = kinetics::design::assess(&spec, d, runs, &volumetric, warnings);
+    let report = kinetics::design::assess(&spec, d, runs, &errors, warnings);
     Ok(report::DesignSheet::build(&spec, d, &report))
 }
 

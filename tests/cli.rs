@@ -728,7 +728,7 @@ fn design_writes_runs_that_plan() {
         .unwrap();
     assert_eq!(out.status.code(), Some(0));
     let runs = String::from_utf8(out.stdout).unwrap();
-    assert!(runs.contains("order in H+: ±0.071 per station"), "{runs}");
+    assert!(runs.contains("order in H+: ±0.062 per station"), "{runs}");
     assert_eq!(runs.matches("[[run]]").count(), 4);
     // The designed runs replace the spec's runs and plan as they are.
     let head = &DEMO[..DEMO.find("[[run]]").unwrap()];

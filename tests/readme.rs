@@ -41,7 +41,8 @@ fn every_toml_block_of_the_readme_reads() {
 }
 
 /// Keys whose values are keyed by species (or run) names, not by fields.
-const NAMED_MAPS: [&str; 6] = [
+const NAMED_MAPS: [&str; 7] = [
+    "centre",
     "contains",
     "targets",
     "concentrations",

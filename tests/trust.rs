@@ -1038,3 +1038,61 @@ fn an_acid_diluted_from_nominal_reagent_is_advised_for_standardizing_and_the_adv
     };
     assert!(h(&titrated) < 0.5 * h(BROMATE));
 }
+
+#[test]
+fn design_names_the_shared_stock_that_floors_ln_k_and_following_the_advice_lowers_it() {
+    // The acid diluted from nominal 37 % reagent (u 1.2 %, H+ squared) is used by every station
+    // from the same flask: more stations do not average it away, so design says to
+    // standardize it. Following the advice (the titrated stock's uncertainty pasted back as
+    // the warning words it) is accepted, the warning goes and the pooled ln k tightens.
+    let before = json(&run("design", BROMATE, &["-f", "json"]).stdout);
+    assert_eq!(before["flagged"], false, "advice is not a flag");
+    let warnings = before["advice"].as_array().unwrap();
+    let advice = warnings
+        .iter()
+        .filter_map(|w| w.as_str())
+        .find(|w| w.contains("shared by every station"))
+        .unwrap_or_else(|| panic!("{warnings:?}"));
+    assert!(advice.contains("'HCl 0.100 M'"), "{advice}");
+    let suggested = advice
+        .split("e.g. ")
+        .nth(1)
+        .unwrap()
+        .trim_end_matches('.')
+        .to_string();
+    let pooled = |r: &serde_json::Value, what: &str| -> (f64, f64) {
+        let p = r["precision"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|p| p["parameter"] == what)
+            .unwrap();
+        (
+            p["pooled"].as_f64().unwrap(),
+            p["lab_wide_floor"].as_f64().unwrap(),
+        )
+    };
+    let (p0, floor0) = pooled(&before, "ln k, orders fixed");
+    assert!(floor0 * floor0 > 0.5 * p0 * p0);
+    let titrated = edit(
+        BROMATE,
+        "dilute_from = \"HCl 1.00 M\"",
+        &format!("dilute_from = \"HCl 1.00 M\"\n{suggested}"),
+    );
+    let after = json(&run("design", &titrated, &["-f", "json"]).stdout);
+    assert!(
+        after["advice"].as_array().unwrap().is_empty(),
+        "{}",
+        after["advice"]
+    );
+    let (p1, floor1) = pooled(&after, "ln k, orders fixed");
+    assert!(
+        p1 < 0.6 * p0 && floor1 < 0.5 * floor0,
+        "{p0} {p1} {floor0} {floor1}"
+    );
+    // The orders do not feel a stock every run shares in proportion: one-at-a-time doubles
+    // one species at a time, so a stock error shifts every ln t alike and only ln k moves.
+    let (o0, _) = pooled(&before, "H+");
+    let (o1, _) = pooled(&after, "H+");
+    approx::assert_relative_eq!(o0, o1, max_relative = 0.02);
+}

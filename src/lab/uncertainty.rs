@@ -7,8 +7,9 @@
 //! pipette's random error is a standard deviation. Volumetric pipet fills and separate
 //! additions are independent.
 
+use crate::kinetics::design::RunErrors;
 use crate::kinetics::RunKinetics;
-pub use crate::reference::tolerance::{delivery_u, tolerance, Tolerance};
+pub use crate::reference::tolerance::{delivery_u, error_split, tolerance, ErrorSplit, Tolerance};
 use crate::solve::RunSolution;
 use crate::spec::{Lab, Spec};
 
@@ -24,7 +25,6 @@ pub struct RunUncertainty {
 /// First-order propagation for one solved run.
 pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
     let adds = &run.additions;
-    let v_total: f64 = adds.iter().map(|a| a.volume).sum();
     let u_add: Vec<f64> = adds
         .iter()
         .map(|a| delivery_u(&a.delivery, &lab.devices))
@@ -34,26 +34,6 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
         .iter()
         .map(|a| a.stock.map_or(0.0, |s| lab.stocks[s].uncertainty))
         .collect();
-    // ∂ln cᵢ/∂V_a and the share of species i that each addition brings.
-    let partials = |sp: &str| -> (Vec<f64>, Vec<f64>) {
-        let amount: Vec<f64> = adds
-            .iter()
-            .map(|a| a.stock.map_or(0.0, |s| lab.stocks[s].concentration_of(sp)) * a.volume)
-            .collect();
-        let n: f64 = amount.iter().sum();
-        let d_v = adds
-            .iter()
-            .map(|a| {
-                let c = a.stock.map_or(0.0, |s| lab.stocks[s].concentration_of(sp));
-                (if n > 0.0 { c / n } else { 0.0 }) - 1.0 / v_total
-            })
-            .collect();
-        let share = amount
-            .iter()
-            .map(|x| if n > 0.0 { x / n } else { 0.0 })
-            .collect();
-        (d_v, share)
-    };
     let combine = |d_v: &[f64], share: &[f64]| -> f64 {
         let vol: f64 = d_v.iter().zip(&u_add).map(|(d, u)| (d * u).powi(2)).sum();
         let stock: f64 = share
@@ -69,53 +49,125 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
         .iter()
         .filter(|(_, c)| *c > 0.0)
         .map(|(sp, _)| {
-            let (d_v, share) = partials(sp);
+            let (d_v, share) = partials(lab, adds, sp);
             (sp.clone(), combine(&d_v, &share))
         })
         .collect();
 
-    let time = spec
-        .prior
-        .as_ref()
-        .map(|p| (&p.reaction, &p.settings))
-        .and_then(|(reaction, f)| {
-            let c0 = &run.concentrations;
-            let timing = spec.timing.concentration;
-            let ln_t = |c0: &[(String, f64)], timing: f64| -> Option<f64> {
-                RunKinetics::new(reaction, c0, timing)
-                    .ok()
-                    .map(|k| k.at(f.temperature).to_colour().ln())
-            };
-            ln_t(c0, timing)?;
-            // Log sensitivities of the time to each species (central differences), the timing
-            // species included; then the time's partials in the volumes and stocks.
-            let h: f64 = 1e-4;
-            let mut g_v = vec![0.0; adds.len()];
-            let mut g_s = vec![0.0; adds.len()];
-            for (j, (sp, _)) in c0.iter().enumerate() {
-                let bump = |factor: f64| -> Option<f64> {
-                    let mut c = c0.clone();
-                    c[j].1 *= factor;
-                    let t = if *sp == spec.timing.species {
-                        timing * factor
-                    } else {
-                        timing
-                    };
-                    ln_t(&c, t)
-                };
-                let s_j = (bump(h.exp())? - bump((-h).exp())?) / (2.0 * h);
-                if s_j == 0.0 {
-                    continue;
-                }
-                let (d_v, share) = partials(sp);
-                for a in 0..adds.len() {
-                    g_v[a] += s_j * d_v[a];
-                    g_s[a] += s_j * share[a];
-                }
-            }
-            Some(combine(&g_v, &g_s))
-        });
+    let time = time_sensitivity(spec, lab, run).map(|g| combine(&g.volume, &g.stock));
     RunUncertainty { species, time }
+}
+
+/// How the forecast time of one run answers each addition and its stock.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TimeSensitivity {
+    /// ∂ln t/∂V (1/L) of each addition's volume.
+    pub volume: Vec<f64>,
+    /// ∂ln t/∂ln C of each addition's stock concentration (0 for water).
+    pub stock: Vec<f64>,
+}
+
+/// ∂ln cᵢ/∂V of each addition and the share of species `sp` that each addition brings.
+fn partials(lab: &Lab, adds: &[crate::solve::Addition], sp: &str) -> (Vec<f64>, Vec<f64>) {
+    let v_total: f64 = adds.iter().map(|a| a.volume).sum();
+    let conc =
+        |a: &crate::solve::Addition| a.stock.map_or(0.0, |s| lab.stocks[s].concentration_of(sp));
+    let n: f64 = adds.iter().map(|a| conc(a) * a.volume).sum();
+    let d_v = adds
+        .iter()
+        .map(|a| (if n > 0.0 { conc(a) / n } else { 0.0 }) - 1.0 / v_total)
+        .collect();
+    let share = adds
+        .iter()
+        .map(|a| if n > 0.0 { conc(a) * a.volume / n } else { 0.0 })
+        .collect();
+    (d_v, share)
+}
+
+/// Log sensitivities of a run's forecast time to each addition's volume and stock: the time's
+/// log sensitivity to every species (central differences, the timing species included) chained
+/// through the dilution. None without a prior or when the run has no clock.
+pub fn time_sensitivity(spec: &Spec, lab: &Lab, run: &RunSolution) -> Option<TimeSensitivity> {
+    let p = spec.prior.as_ref()?;
+    let (reaction, f) = (&p.reaction, &p.settings);
+    let adds = &run.additions;
+    let c0 = &run.concentrations;
+    let timing = spec.timing.concentration;
+    let ln_t = |c0: &[(String, f64)], timing: f64| -> Option<f64> {
+        RunKinetics::new(reaction, c0, timing)
+            .ok()
+            .map(|k| k.at(f.temperature).to_colour().ln())
+    };
+    ln_t(c0, timing)?;
+    let h: f64 = 1e-4;
+    let mut volume = vec![0.0; adds.len()];
+    let mut stock = vec![0.0; adds.len()];
+    for (j, (sp, _)) in c0.iter().enumerate() {
+        let bump = |factor: f64| -> Option<f64> {
+            let mut c = c0.clone();
+            c[j].1 *= factor;
+            let t = if *sp == spec.timing.species {
+                timing * factor
+            } else {
+                timing
+            };
+            ln_t(&c, t)
+        };
+        let s_j = (bump(h.exp())? - bump((-h).exp())?) / (2.0 * h);
+        if s_j == 0.0 {
+            continue;
+        }
+        let (d_v, share) = partials(lab, adds, sp);
+        for a in 0..adds.len() {
+            volume[a] += s_j * d_v[a];
+            stock[a] += s_j * share[a];
+        }
+    }
+    Some(TimeSensitivity { volume, stock })
+}
+
+/// A run's error sources for `design`'s correlated model: each stock flask's error (one
+/// flask serves the whole lab), each device's calibration error (one item per station, the
+/// same in every trial of that station) and each trial's own delivery scatter, all as
+/// contributions to ln t (k = 1). None when the run has no forecast time to propagate to.
+pub fn design_errors(spec: &Spec, lab: &Lab, run: &RunSolution) -> Option<RunErrors> {
+    let g = time_sensitivity(spec, lab, run)?;
+    let mut errors = RunErrors::default();
+    let mut trial = 0.0;
+    for (a, add) in run.additions.iter().enumerate() {
+        if let Some(s) = add.stock {
+            let c = g.stock[a] * lab.stocks[s].uncertainty;
+            let name = &lab.stocks[s].name;
+            if lab.stocks[s].uncertainty >= WORTH_STANDARDIZING
+                && !errors.standardizable.contains(name)
+            {
+                errors.standardizable.push(name.clone());
+            }
+            match errors.lab.iter_mut().find(|(x, _)| x == name) {
+                Some((_, v)) => *v += c,
+                None => errors.lab.push((name.clone(), c)),
+            }
+        }
+        for &(d, n) in &add.delivery.parts {
+            let split = error_split(&lab.devices[d]);
+            // Every fill of a transfer pipet carries the same item's error; an adjustable
+            // device delivers its steps in one go.
+            let (uses, fills) = if lab.devices[d].is_volumetric() {
+                (n as f64, n as f64)
+            } else {
+                (1.0, 1.0)
+            };
+            let c = g.volume[a] * uses * split.item;
+            let name = &lab.devices[d].name;
+            match errors.station.iter_mut().find(|(x, _)| x == name) {
+                Some((_, v)) => *v += c,
+                None => errors.station.push((name.clone(), c)),
+            }
+            trial += (g.volume[a] * split.per_delivery).powi(2) * fills;
+        }
+    }
+    errors.trial = trial.sqrt();
+    Some(errors)
 }
 
 /// Every run's uncertainties, propagated once per distinct recipe: a run that repeats an

@@ -94,6 +94,39 @@ pub fn tolerance(d: &Device) -> Tolerance {
     }
 }
 
+/// Half-width of one reading of a graduated scale, as a fraction of its graduation: a
+/// meniscus is read to about a fifth of a division (common practice).
+pub const READING_FRACTION: f64 = 0.2;
+
+/// How a device's error splits between what stays with the item and what each use draws
+/// afresh, as standard uncertainties (L).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ErrorSplit {
+    /// The item's calibration error (its tolerance as a rectangular distribution): the same
+    /// for every delivery it makes, so shared by every trial of the station that owns it.
+    pub item: f64,
+    /// One delivery's own scatter: a piston pipette's random error, plus two readings of the
+    /// scale for a graduated device (initial and final level).
+    pub per_delivery: f64,
+}
+
+/// A device's error split (see [`ErrorSplit`]). A transfer pipet's fill-to-fill scatter is
+/// small beside its tolerance (common practice) and is not modelled.
+pub fn error_split(d: &Device) -> ErrorSplit {
+    let t = tolerance(d);
+    let reading = match d.kind {
+        DeviceKind::Buret | DeviceKind::GraduatedPipet | DeviceKind::GraduatedCylinder => {
+            // Rectangular ±(fraction × graduation) per reading, two readings.
+            2f64.sqrt() * READING_FRACTION * d.step / 3f64.sqrt()
+        }
+        DeviceKind::VolumetricPipet | DeviceKind::PistonPipette => 0.0,
+    };
+    ErrorSplit {
+        item: t.systematic / 3f64.sqrt(),
+        per_delivery: (t.random * t.random + reading * reading).sqrt(),
+    }
+}
+
 /// Standard uncertainty (L) of one delivery.
 pub fn delivery_u(delivery: &Delivery, devices: &[Device]) -> f64 {
     delivery
@@ -166,5 +199,26 @@ mod tests {
         for r in table() {
             assert!(r.1 > 0.0 && r.2 > 0.0 && !r.4.is_empty());
         }
+    }
+
+    #[test]
+    fn error_split_of_a_buret_and_a_transfer_pipet() {
+        // A class A 10 mL buret (±0.02 mL, ASTM E287 from memory) graduated in 0.05 mL: the
+        // item's error 0.02/√3 mL; two readings each ±0.2 × 0.05 mL rectangular (common
+        // practice): √2 × 0.01/√3 mL per delivery.
+        let mut b = device(DeviceKind::Buret, Some(Class::A), 10.0);
+        b.step = 0.05e-3;
+        let s = error_split(&b);
+        assert_relative_eq!(s.item, 0.02e-3 / 3f64.sqrt(), max_relative = 1e-12);
+        assert_relative_eq!(
+            s.per_delivery,
+            2f64.sqrt() * 0.01e-3 / 3f64.sqrt(),
+            max_relative = 1e-12
+        );
+        // A class A 5 mL transfer pipet (±0.01 mL, ASTM E969-02 Table 1): all of it stays
+        // with the item.
+        let p = error_split(&device(DeviceKind::VolumetricPipet, Some(Class::A), 5.0));
+        assert_relative_eq!(p.item, 0.01e-3 / 3f64.sqrt(), max_relative = 1e-12);
+        assert_eq!(p.per_delivery, 0.0);
     }
 }

@@ -11,20 +11,36 @@ pub struct DesignedRunReport {
     pub name: String,
     /// Species → target (mol/L), in the order of the base point.
     pub targets: super::Ordered,
-    /// Standard deviation of ln t of one trial.
+    /// Standard deviation of ln t of one trial, all sources.
     pub sigma_ln_t: f64,
+    /// The same split by how far each part is shared.
+    pub sigma_ln_t_parts: SigmaPartsReport,
     /// Predicted time at the planned temperature (s), when the spec has a prior.
     pub predicted_s: Option<f64>,
 }
 
+/// σ of ln t of one trial by how far it is shared.
+#[derive(Debug, Clone, Serialize)]
+pub struct SigmaPartsReport {
+    /// From the stock flasks the whole lab shares.
+    pub lab_wide: f64,
+    /// From the station's own glassware (the same items in all its trials).
+    pub station_wide: f64,
+    /// Drawn afresh in each trial: stopwatch, temperature scatter, scale readings.
+    pub per_trial: f64,
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct PrecisionReport {
-    /// "ln k", "ln k, orders fixed", or the species of an order.
+    /// "ln k at 1 M", "ln k at centre", "ln k, orders fixed", "ln k at … °C, orders fixed",
+    /// or the species of an order.
     pub parameter: String,
     /// Expected standard error from one station's trials.
     pub per_station: f64,
     /// Expected standard error with all stations pooled.
     pub pooled: f64,
+    /// The part of `pooled` from the shared stock flasks, which no number of stations lowers.
+    pub lab_wide_floor: f64,
 }
 
 /// The report of `clockprep design`.
@@ -41,10 +57,18 @@ pub struct DesignSheet {
     /// Unrecorded trial-to-trial temperature scatter, K.
     #[serde(rename = "temperature_spread_K")]
     pub temperature_spread_k: f64,
+    /// Standard uncertainty of a station thermometer's offset, K (one per station).
+    #[serde(rename = "thermometer_u_K")]
+    pub thermometer_u_k: f64,
+    /// The design's centre: each species' geometric mean over the runs (mol/L).
+    pub centre: super::Ordered,
     pub runs: Vec<DesignedRunReport>,
     pub precision: Vec<PrecisionReport>,
     pub not_varied: Vec<String>,
     pub warnings: Vec<String>,
+    /// What would improve the design without being wrong as it is: a shared stock worth
+    /// standardizing. Not a flag.
+    pub advice: Vec<String>,
     /// The runs as `[[run]]` tables to paste into a spec.
     pub runs_toml: String,
     pub flagged: bool,
@@ -90,15 +114,22 @@ impl DesignSheet {
             replicates: spec.replicates,
             timing_error: d.timing_error,
             temperature_spread_k: d.temperature_spread,
+            thermometer_u_k: report.thermometer,
+            centre: super::Ordered(report.centre.clone()),
             runs: report
                 .runs
                 .iter()
-                .zip(&report.sigma)
+                .zip(&report.sigma_parts)
                 .zip(&report.times)
                 .map(|((r, s), t)| DesignedRunReport {
                     name: r.name.clone(),
                     targets: super::Ordered(r.targets.clone()),
-                    sigma_ln_t: *s,
+                    sigma_ln_t: s.total(),
+                    sigma_ln_t_parts: SigmaPartsReport {
+                        lab_wide: s.lab,
+                        station_wide: s.station,
+                        per_trial: s.trial,
+                    },
                     predicted_s: *t,
                 })
                 .collect(),
@@ -109,10 +140,12 @@ impl DesignSheet {
                     parameter: p.name.clone(),
                     per_station: p.station,
                     pooled: p.class,
+                    lab_wide_floor: p.lab_wide,
                 })
                 .collect(),
             not_varied: report.not_varied.clone(),
             warnings: report.warnings.clone(),
+            advice: report.advice.clone(),
             runs_toml: runs_toml(report),
             flagged: !report.warnings.is_empty(),
         }
@@ -138,16 +171,30 @@ impl DesignSheet {
                 format!("order in {}", p.parameter)
             };
             s.detail(format!(
-                "{what}: ±{:.3} per station (±{:.3} pooled)",
-                p.per_station, p.pooled
+                "{what}: ±{:.3} per station (±{:.3} pooled, of which ±{:.3} from the shared stocks)",
+                p.per_station, p.pooled, p.lab_wide_floor
             ));
         }
+        let centre: Vec<String> = self
+            .centre
+            .0
+            .iter()
+            .map(|(sp, c)| format!("{sp} {} mM", super::words::mm(*c)))
+            .collect();
         s.para(format!(
-            "Per-trial error: timing {} %, temperature scatter {} °C, glassware and stocks per run.",
+            "ln k at centre is the fitted rate at the design's centre ({}) less the centre's Σ n ln c; ln k at 1 M extrapolates the orders' errors to 1 M.",
+            centre.join(", ")
+        ));
+        s.para(format!(
+            "Errors: the stock flasks are shared by the whole lab, each station's glassware and thermometer (offset u {:.2} K) by its trials; the stopwatch ({} %), the temperature scatter ({} °C) and the scale readings are drawn afresh in each trial.",
+            self.thermometer_u_k,
             trim(self.timing_error * 100.0),
             trim(self.temperature_spread_k)
         ));
         s.push(Block::Warnings(self.warnings.clone()));
+        for a in &self.advice {
+            s.para(format!("Advice: {a}."));
+        }
         s
     }
 
@@ -166,7 +213,16 @@ impl DesignSheet {
             .unwrap_or_default();
         let mut cols = vec!["run".to_string()];
         cols.extend(species);
-        cols.extend(["σ(ln t)".to_string(), "predicted (s)".to_string()]);
+        cols.extend(
+            [
+                "σ(ln t)",
+                "σ lab-wide",
+                "σ station-wide",
+                "σ per trial",
+                "predicted (s)",
+            ]
+            .map(String::from),
+        );
         let rows = self
             .runs
             .iter()
@@ -174,6 +230,10 @@ impl DesignSheet {
                 let mut row = vec![r.name.clone()];
                 row.extend(r.targets.0.iter().map(|(_, c)| super::words::mm(*c)));
                 row.push(format!("{:.3}", r.sigma_ln_t));
+                let p = &r.sigma_ln_t_parts;
+                for v in [p.lab_wide, p.station_wide, p.per_trial] {
+                    row.push(format!("{v:.3}"));
+                }
                 row.push(r.predicted_s.map_or("-".into(), |t| format!("{t:.0}")));
                 row
             })

@@ -146,6 +146,19 @@ impl Checker<'_> {
                 units::parse_temperature_difference,
             )?,
         };
+        // A general-purpose laboratory thermometer reads within about ±0.5 °C (from memory),
+        // read as a rectangular distribution: standard uncertainty 0.5/√3 K. The spec states
+        // the ± half-width.
+        let thermometer_offset = match &r.thermometer_offset {
+            None => 0.5,
+            Some(q) => self.special(
+                q,
+                "thermometer_offset",
+                Kind::Temperature,
+                "\"0.5 °C\"",
+                units::parse_temperature_difference,
+            )?,
+        } / 3f64.sqrt();
         Ok(Design {
             base,
             scheme,
@@ -153,6 +166,7 @@ impl Checker<'_> {
             levels,
             timing_error,
             temperature_spread,
+            thermometer_offset,
             volumetric_error,
         })
     }

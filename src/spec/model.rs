@@ -202,6 +202,8 @@ pub struct Design {
     pub timing_error: f64,
     /// Unrecorded trial-to-trial temperature scatter, K.
     pub temperature_spread: f64,
+    /// Standard uncertainty (K) of a station thermometer's offset: one draw per station.
+    pub thermometer_offset: f64,
     /// Relative volumetric error of a trial when the spec has no glassware to propagate.
     pub volumetric_error: f64,
 }

@@ -68,6 +68,7 @@ pub(crate) struct RawDesign {
     pub(crate) levels: Option<Spanned<Entries<Vec<Q>>>>,
     pub(crate) timing_error: Option<Q>,
     pub(crate) temperature_spread: Option<Q>,
+    pub(crate) thermometer_offset: Option<Q>,
     pub(crate) volumetric_error: Option<Q>,
 }
 
