@@ -304,7 +304,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         } => guarded(&write, &[&spec, &times], || {
             let times_source = read_named(&times, "times file")?;
             let sheet = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
-            Ok((export::export_fit(&sheet, format.into()), sheet.flagged))
+            Ok((export::export_fit(&sheet, format.into()), sheet.flagged()))
         }),
         Command::Design {
             spec,

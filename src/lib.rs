@@ -85,15 +85,12 @@ fn stock_sheet(
     report::build_stocks(spec, lab, &preps, &dominant)
 }
 
-/// Forecast clock times from the target concentrations alone (no stocks or glassware needed).
+/// Forecast clock times: from the delivered concentrations when the spec lists stocks (as
+/// `plan`, `fit` and `chart` see them, counter-ions and the ionic-strength salt included), else
+/// from the targets alone (no stocks or glassware needed).
 pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
-    let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let (spec, initial) = initial_concentrations(source)?;
     let prior = spec.need_prior()?;
-    let initial: Vec<_> = spec
-        .runs
-        .iter()
-        .map(|r| r.target_concentrations())
-        .collect();
     let forecast = kinetics::forecast::forecast(&spec, prior, &initial);
     Ok(report::build_forecast(&spec, prior, &forecast))
 }
@@ -155,9 +152,28 @@ pub fn fit(
     source: SpecSource,
     times: SpecSource,
     orders: Option<&str>,
-) -> Result<report::FitSheet> {
+) -> Result<report::FitReport> {
     let (spec, initial) = initial_concentrations(source)?;
     let prior = spec.need_prior()?;
+    let trials = kinetics::fit::read_times(&times, &spec)?;
+    if prior.reaction.terms.len() > 1 {
+        // Several terms: every k is fitted, the orders held at the prior's.
+        if let Some(text) = orders {
+            return Err(SpecSource::new("--orders", text).error(
+                0..text.len(),
+                "--orders fixes the orders of a one-term rate law; a rate law of several terms keeps each term's orders from the prior and fits every k",
+                "here",
+                "leave --orders out, or change the orders in [[reaction.term]]",
+            ));
+        }
+        let result = kinetics::fit_terms::fit_terms(&spec, prior, &initial, &trials)?;
+        return Ok(report::FitReport::Terms(report::TermsFitSheet::build(
+            &spec,
+            prior,
+            &result,
+            &times.name,
+        )));
+    }
     let prior_orders: Vec<(String, f64)> = prior
         .reaction
         .terms
@@ -178,7 +194,6 @@ pub fn fit(
             )
         })?,
     };
-    let trials = kinetics::fit::read_times(&times, &spec)?;
     let result = kinetics::fit::fit(
         &spec,
         prior,
@@ -186,7 +201,12 @@ pub fn fit(
         &trials,
         &kinetics::fit::Options { fixed },
     )?;
-    Ok(report::FitSheet::build(&spec, prior, &result, &times.name))
+    Ok(report::FitReport::OneTerm(report::FitSheet::build(
+        &spec,
+        prior,
+        &result,
+        &times.name,
+    )))
 }
 
 /// Design a run set from the spec's `[design]`: the runs, their expected precision, and the

@@ -783,3 +783,93 @@ fn completions_for_a_shell() {
         .stdout(predicate::str::contains("clockprep"))
         .stdout(predicate::str::contains("forecast"));
 }
+
+#[test]
+fn two_term_fit_refuses_terms_the_timed_runs_cannot_separate_and_names_the_run_that_would() {
+    // Without the acid run every timed run has the same [H+], so the acid-independent and
+    // acid-assisted terms keep the same shares of the rate: refused, naming 'acid x3'.
+    let dir = tempfile::tempdir().unwrap();
+    let times = dir.path().join("no-acid.csv");
+    let pilot = std::fs::read_to_string("plans/willow-creek-peroxide-pilot.csv").unwrap();
+    let kept: Vec<&str> = pilot.lines().filter(|l| !l.starts_with("acid")).collect();
+    std::fs::write(&times, kept.join("\n") + "\n").unwrap();
+    let out = clockprep()
+        .args(["fit", "plans/willow-creek-peroxide-forecast.toml"])
+        .arg(&times)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8(out.stderr).unwrap();
+    assert!(
+        err.contains("cannot separate the terms H2O2·I- and H2O2·I-·H+")
+            && err.contains("time 'acid x3' too")
+            && err.contains("H+"),
+        "{err}"
+    );
+    // With the acid run timed the same fit goes through.
+    clockprep()
+        .args([
+            "fit",
+            "plans/willow-creek-peroxide-forecast.toml",
+            "plans/willow-creek-peroxide-pilot.csv",
+        ])
+        .assert()
+        .code(0);
+    // --orders belongs to one-term rate laws.
+    clockprep()
+        .args([
+            "fit",
+            "plans/willow-creek-peroxide-forecast.toml",
+            "plans/willow-creek-peroxide-pilot.csv",
+            "--orders",
+            "prior",
+        ])
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains(
+            "--orders fixes the orders of a one-term rate law",
+        ));
+}
+
+#[test]
+fn two_term_fit_fragment_pasted_back_forecasts_the_fitted_times() {
+    // The [reaction] fragment replaces the prior; the forecast at the plan's 20 °C then gives
+    // the fitted time of the base run's trial at 20.0 °C (k written to four figures).
+    let out = clockprep()
+        .args([
+            "fit",
+            "plans/willow-creek-peroxide-forecast.toml",
+            "plans/willow-creek-peroxide-pilot.csv",
+            "-f",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    let fit: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(fit["format"], "clockprep-fit-terms/1");
+    let fragment = fit["reaction_toml"].as_str().unwrap();
+    let spec = std::fs::read_to_string("plans/willow-creek-peroxide-forecast.toml").unwrap();
+    let start = spec.find("[reaction]").unwrap();
+    let end = spec.find("[[run]]").unwrap();
+    let pasted = format!("{}{fragment}\n{}", &spec[..start], &spec[end..]);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("refit.toml");
+    std::fs::write(&path, pasted).unwrap();
+    let out = clockprep()
+        .arg("forecast")
+        .arg(&path)
+        .args(["-f", "json"])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let forecast: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let base = forecast["runs"][0]["forecast"]["time_s"].as_f64().unwrap();
+    let fitted = fit["residuals"][0]["fitted_s"].as_f64().unwrap();
+    assert_eq!(fit["residuals"][0]["line"], 2);
+    approx::assert_relative_eq!(base, fitted, max_relative = 5e-4);
+}

@@ -181,3 +181,145 @@ fn two_temperatures_give_the_activation_energy() {
     approx::assert_relative_eq!(f.t_ref, truth.terms[0].t_ref);
     approx::assert_relative_eq!(f.k.value, truth.terms[0].k_ref, max_relative = 1e-6);
 }
+
+const PEROXIDE_DEMO: &str = "plans/willow-creek-peroxide-forecast.toml";
+
+/// Times of the two-term peroxide demo from its prior with each term's k scaled, `reps` per
+/// run with relative noise `sigma`.
+fn two_term_synthetic(
+    spec: &clockprep::spec::Spec,
+    initial: &[Vec<(String, f64)>],
+    factors: [f64; 2],
+    reps: usize,
+    sigma: f64,
+    rng: &mut Rng,
+) -> Vec<Trial> {
+    let mut truth = spec.prior.as_ref().unwrap().reaction.clone();
+    for (term, f) in truth.terms.iter_mut().zip(factors) {
+        term.k_ref *= f;
+    }
+    let t = spec.prior.as_ref().unwrap().settings.temperature;
+    let mut trials = Vec::new();
+    for (run, c0) in initial.iter().enumerate() {
+        let time = RunKinetics::new(&truth, c0, spec.timing.concentration)
+            .unwrap()
+            .at(t)
+            .to_colour();
+        for _ in 0..reps {
+            trials.push(Trial {
+                run,
+                time: time * (sigma * rng.normal()).exp(),
+                temperature: None,
+                line: 0,
+            });
+        }
+    }
+    trials
+}
+
+fn peroxide() -> (clockprep::spec::Spec, Vec<Vec<(String, f64)>>) {
+    clockprep::initial_concentrations(SpecSource::new(
+        PEROXIDE_DEMO,
+        std::fs::read_to_string(PEROXIDE_DEMO).unwrap(),
+    ))
+    .unwrap()
+}
+
+#[test]
+fn two_term_fit_gives_back_each_terms_k_from_exact_times() {
+    // forecast → fit: noise-free times from k₁ × 1.3 and k₂ × 0.6 return both.
+    use clockprep::kinetics::fit_terms::fit_terms;
+    let (spec, initial) = peroxide();
+    let prior = spec.prior.as_ref().unwrap();
+    let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 2, 0.0, &mut Rng(3));
+    let f = fit_terms(&spec, prior, &initial, &trials).unwrap();
+    let t = prior.settings.temperature;
+    for (fitted, (term, factor)) in f
+        .terms
+        .iter()
+        .zip(prior.reaction.terms.iter().zip([1.3, 0.6]))
+    {
+        approx::assert_relative_eq!(fitted.k.value, factor * term.k_at(t), max_relative = 1e-6);
+    }
+}
+
+#[test]
+fn two_term_standard_errors_match_the_spread_of_repeated_pilots() {
+    // 300 seeded pilots of 3 replicates per run with 2 % timing noise: the standard deviation
+    // of each fitted ln k over the pilots must match the mean Jacobian standard error within
+    // 10 % (for a model close to linear in ln k, E[s²] = σ²), and each 95 % interval must
+    // contain the truth in at least 90 % of them; the profile checks stay near 1.
+    use clockprep::kinetics::fit_terms::fit_terms;
+    let (spec, initial) = peroxide();
+    let prior = spec.prior.as_ref().unwrap();
+    let t = prior.settings.temperature;
+    let truth: Vec<f64> = prior
+        .reaction
+        .terms
+        .iter()
+        .zip([1.3, 0.6])
+        .map(|(term, f)| (f * term.k_at(t)).ln())
+        .collect();
+    let mut rng = Rng(20_261_202);
+    let pilots = 300;
+    let mut ln_k = vec![Vec::new(); 2];
+    let mut se = [0.0; 2];
+    let mut covered = [0usize; 2];
+    let mut profile = Vec::new();
+    for _ in 0..pilots {
+        let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 3, 0.02, &mut rng);
+        let f = fit_terms(&spec, prior, &initial, &trials).unwrap();
+        for m in 0..2 {
+            let v = f.terms[m].k.value.ln();
+            ln_k[m].push(v);
+            se[m] += f.terms[m].ln_k_se / pilots as f64;
+            if (f.terms[m].k.low.ln()..=f.terms[m].k.high.ln()).contains(&truth[m]) {
+                covered[m] += 1;
+            }
+            profile.push(f.terms[m].profile.0);
+            profile.push(f.terms[m].profile.1);
+        }
+    }
+    let sd = |x: &[f64]| {
+        let m = x.iter().sum::<f64>() / x.len() as f64;
+        (x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
+    };
+    for m in 0..2 {
+        eprintln!("term {m}: sd {:.4} vs mean se {:.4}", sd(&ln_k[m]), se[m]);
+        approx::assert_relative_eq!(sd(&ln_k[m]), se[m], max_relative = 0.10);
+        assert!(covered[m] as f64 >= 0.90 * pilots as f64, "{covered:?}");
+    }
+    assert!(
+        profile.iter().all(|p| (0.8..=1.25).contains(p)),
+        "{profile:?}"
+    );
+}
+
+#[test]
+fn two_term_fit_warns_when_the_runs_barely_separate_the_terms() {
+    // The acid run at 0.104 M instead of 0.300 M: the two paths' shares hardly change between
+    // the runs, so each k is known to worse than a factor of 1.6 and the fit says so.
+    use clockprep::kinetics::fit_terms::fit_terms;
+    let (spec, mut initial) = peroxide();
+    let prior = spec.prior.as_ref().unwrap().clone();
+    for (s, c) in initial[3].iter_mut() {
+        if s == "H+" {
+            *c = 0.104;
+        }
+    }
+    let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 3, 0.02, &mut Rng(11));
+    let f = fit_terms(&spec, &prior, &initial, &trials).unwrap();
+    assert!(
+        f.warnings.iter().any(|w| w.contains("barely separate")),
+        "{:?}",
+        f.warnings
+    );
+    assert!(f.terms.iter().all(|t| t.ln_k_se > 0.5));
+    // So weakly determined, the sum of squares is far from quadratic over the interval: the
+    // profile check says the Jacobian interval is only a rough guide.
+    assert!(
+        f.warnings.iter().any(|w| w.contains("profile check")),
+        "{:?}",
+        f.warnings
+    );
+}

@@ -90,6 +90,16 @@ fn documents() -> Vec<serde_json::Value> {
         .output()
         .unwrap();
     docs.push(serde_json::from_slice(&fit.stdout).expect("fit JSON"));
+    let pilot2 = include_str!("../plans/willow-creek-peroxide-pilot.csv");
+    std::fs::write(dir.path().join("peroxide.toml"), PEROXIDE).unwrap();
+    std::fs::write(dir.path().join("peroxide.csv"), pilot2).unwrap();
+    let fit2 = assert_cmd::Command::cargo_bin("clockprep")
+        .unwrap()
+        .current_dir(dir.path())
+        .args(["fit", "peroxide.toml", "peroxide.csv", "-f", "json"])
+        .output()
+        .unwrap();
+    docs.push(serde_json::from_slice(&fit2.stdout).expect("two-term fit JSON"));
     docs
 }
 

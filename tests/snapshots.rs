@@ -98,6 +98,20 @@ fn bromate_pilot_fit() {
 }
 
 #[test]
+fn peroxide_two_term_fit() {
+    let sheet = clockprep::fit(
+        source("plans/willow-creek-peroxide-forecast.toml"),
+        source("plans/willow-creek-peroxide-pilot.csv"),
+        None,
+    )
+    .unwrap();
+    for (format, ext) in SUMMARY_FORMATS {
+        let text = String::from_utf8(export_fit(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("peroxide_fit_terms_{ext}"), text);
+    }
+}
+
+#[test]
 fn bromate_design() {
     let sheet = clockprep::design(source("plans/maple-hollow-bromate.toml")).unwrap();
     for (format, ext) in SUMMARY_FORMATS {

@@ -1096,3 +1096,69 @@ fn design_names_the_shared_stock_that_floors_ln_k_and_following_the_advice_lower
     let (o1, _) = pooled(&after, "H+");
     approx::assert_relative_eq!(o0, o1, max_relative = 0.02);
 }
+
+#[test]
+fn fit_fragment_keeps_the_salt_reference_and_the_visible_criterion_of_the_model_it_fitted() {
+    // The fitted k holds at the spec's k_at_ionic_strength and under its visible criterion; a
+    // fragment without them would, pasted back, forecast with a different model. Pasted back,
+    // the prior forecasts the same time as the fit's model for a trial at the plan temperature.
+    let salted = edit(
+        BROMATE,
+        "preset = \"bromate-iodide\"",
+        "preset = \"bromate-iodide\"\nk_at_ionic_strength = \"0.050 M\"\nvisible = { threshold = \"20 uM\", as = \"total\", factor = 1.3, source = \"invented for this test\" }",
+    );
+    let pilot = include_str!("../plans/maple-hollow-pilot.csv");
+    let o = run_with(
+        "fit",
+        &salted,
+        &[("pilot.csv", pilot)],
+        &["pilot.csv", "-f", "json"],
+    );
+    let fit = json(&o.stdout);
+    let fragment = fit["reaction_toml"].as_str().unwrap();
+    assert!(
+        fragment.contains("k_at_ionic_strength = \"0.05000 M\"")
+            && fragment.contains("as = \"total\"")
+            && fragment.contains("factor = 1.300"),
+        "{fragment}"
+    );
+    let start = salted.find("[reaction]").unwrap();
+    let end = salted[start..].find("\n[mixing]").unwrap() + start;
+    let pasted = format!("{}{fragment}{}", &salted[..start], &salted[end..]);
+    let f = run("forecast", &pasted, &["-f", "json"]);
+    let forecast = json(&f.stdout);
+    // The pilot's first trial: run 'reference' at 21.0 °C, the plan's temperature.
+    assert_eq!(fit["residuals"][0]["run"], "reference");
+    approx::assert_relative_eq!(
+        forecast["runs"][0]["forecast"]["time_s"].as_f64().unwrap(),
+        fit["residuals"][0]["fitted_s"].as_f64().unwrap(),
+        max_relative = 5e-4
+    );
+}
+
+#[test]
+fn forecast_of_a_spec_with_stocks_sees_the_delivered_ionic_strength_as_plan_does() {
+    // With the salt effect on, k depends on every ion a run holds. `forecast` once took the
+    // targets alone (no K+, NO3-, Cl-, no KNO3 filler) and forecast 92 s where `plan` said
+    // 124 s for the same run; now both forecast the delivered concentrations.
+    let salted = edit(
+        BROMATE,
+        "preset = \"bromate-iodide\"",
+        "preset = \"bromate-iodide\"\nk_at_ionic_strength = \"0.050 M\"",
+    );
+    let plan = json(&run("plan", &salted, &["-f", "json"]).stdout);
+    let forecast = json(&run("forecast", &salted, &["-f", "json"]).stdout);
+    for (p, f) in plan["runs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(forecast["runs"].as_array().unwrap())
+    {
+        assert_eq!(p["name"], f["name"]);
+        approx::assert_relative_eq!(
+            p["forecast"]["time_s"].as_f64().unwrap(),
+            f["forecast"]["time_s"].as_f64().unwrap(),
+            max_relative = 1e-9
+        );
+    }
+}

@@ -14,7 +14,7 @@ mod text;
 mod toml;
 
 use crate::report::page::Page;
-use crate::report::{DesignSheet, FitSheet, ForecastSheet, PlanReport, StockSheet, TuneSheet};
+use crate::report::{DesignSheet, FitReport, ForecastSheet, PlanReport, StockSheet, TuneSheet};
 
 pub use self::csv::Csv;
 pub use self::json::Json;
@@ -103,13 +103,21 @@ fn summary(
 }
 
 /// Export the result of `clockprep fit`.
-pub fn export_fit(sheet: &FitSheet, format: SummaryFormat) -> Vec<u8> {
-    summary(
-        sheet.page(),
-        json::pretty(sheet),
-        || toml::fit(sheet),
-        format,
-    )
+pub fn export_fit(report: &FitReport, format: SummaryFormat) -> Vec<u8> {
+    match report {
+        FitReport::OneTerm(sheet) => summary(
+            sheet.page(),
+            json::pretty(sheet),
+            || toml::fit(sheet.summary(), &sheet.reaction_toml),
+            format,
+        ),
+        FitReport::Terms(sheet) => summary(
+            sheet.page(),
+            json::pretty(sheet),
+            || toml::fit(sheet.summary(), &sheet.reaction_toml),
+            format,
+        ),
+    }
 }
 
 /// Export the result of `clockprep design`.

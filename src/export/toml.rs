@@ -2,7 +2,7 @@
 //! tables to paste into the spec.
 
 use crate::report::page::{Page, Section};
-use crate::report::{DesignSheet, FitSheet, TuneSheet};
+use crate::report::{DesignSheet, TuneSheet};
 
 /// A section as comment lines.
 fn comments(section: Section) -> String {
@@ -19,8 +19,9 @@ fn comments(section: Section) -> String {
     out
 }
 
-pub fn fit(sheet: &FitSheet) -> String {
-    format!("{}\n{}", comments(sheet.summary()), sheet.reaction_toml)
+/// A fit's summary as comments, then its `[reaction]` fragment.
+pub fn fit(summary: Section, reaction_toml: &str) -> String {
+    format!("{}\n{}", comments(summary), reaction_toml)
 }
 
 pub fn design(sheet: &DesignSheet) -> String {

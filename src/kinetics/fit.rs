@@ -490,7 +490,7 @@ fn fitted_orders(solved: &Solved, free: &[usize], est: &dyn Fn(usize) -> Estimat
         .collect()
 }
 
-fn residuals_of(spec: &Spec, trials: &[Trial], ols: &Ols) -> Vec<Residual> {
+pub(crate) fn residuals_of(spec: &Spec, trials: &[Trial], ols: &Ols) -> Vec<Residual> {
     trials
         .iter()
         .enumerate()
@@ -514,14 +514,7 @@ fn residuals_of(spec: &Spec, trials: &[Trial], ols: &Ols) -> Vec<Residual> {
 /// What to look at before using the fit: outliers, implausible orders, times far from the
 /// prior's forecast.
 fn warnings_of(problem: &Problem, residuals: &[Residual], orders: &[Order]) -> Vec<String> {
-    let spec = problem.spec;
-    let mut warnings = Vec::new();
-    for r in residuals.iter().filter(|r| r.outlier) {
-        warnings.push(format!(
-            "line {}: run '{}' took {} s against {} s fitted (studentized residual {:+.1}): check that trial, or leave it out and refit",
-            r.line, r.run, units::sig3(r.time), units::sig3(r.predicted), r.studentized
-        ));
-    }
+    let mut warnings = outlier_warnings(residuals);
     for o in orders.iter().filter(|o| !o.fixed) {
         let (lo, hi) = PLAUSIBLE_ORDERS;
         if !(lo..=hi).contains(&o.estimate.value) {
@@ -531,12 +524,40 @@ fn warnings_of(problem: &Problem, residuals: &[Residual], orders: &[Order]) -> V
             ));
         }
     }
-    for (t, &temp) in problem.trials.iter().zip(problem.temps) {
-        let Ok(kin) = RunKinetics::new(
-            problem.reaction,
-            &problem.initial[t.run],
-            spec.timing.concentration,
-        ) else {
+    warnings.extend(far_from_prior(
+        problem.spec,
+        problem.reaction,
+        problem.initial,
+        problem.trials,
+        problem.temps,
+    ));
+    warnings
+}
+
+/// A warning per outlying trial.
+pub(crate) fn outlier_warnings(residuals: &[Residual]) -> Vec<String> {
+    residuals
+        .iter()
+        .filter(|r| r.outlier)
+        .map(|r| format!(
+            "line {}: run '{}' took {} s against {} s fitted (studentized residual {:+.1}): check that trial, or leave it out and refit",
+            r.line, r.run, units::sig3(r.time), units::sig3(r.predicted), r.studentized
+        ))
+        .collect()
+}
+
+/// A warning per trial more than [`PRIOR_RATIO`] times longer or shorter than the prior's
+/// forecast.
+pub(crate) fn far_from_prior(
+    spec: &Spec,
+    reaction: &Reaction,
+    initial: &[Vec<(String, f64)>],
+    trials: &[Trial],
+    temps: &[f64],
+) -> Vec<String> {
+    let mut warnings = Vec::new();
+    for (t, &temp) in trials.iter().zip(temps) {
+        let Ok(kin) = RunKinetics::new(reaction, &initial[t.run], spec.timing.concentration) else {
             continue;
         };
         let prior = kin.at(temp).to_colour();
@@ -707,7 +728,7 @@ impl Problem<'_> {
     }
 }
 
-fn refuse(spec: &Spec, message: &str, help: &str) -> Error {
+pub(crate) fn refuse(spec: &Spec, message: &str, help: &str) -> Error {
     spec.source.error(
         spec.source.table("[reaction]"),
         message.to_string(),

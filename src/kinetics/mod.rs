@@ -15,6 +15,7 @@
 
 pub mod design;
 pub mod fit;
+pub mod fit_terms;
 pub mod forecast;
 pub mod salt;
 pub mod times;

@@ -99,12 +99,7 @@ fn k_unit(fit: &Fit) -> String {
         .iter()
         .map(|o| (o.estimate.value * 1e4).round() / 1e4)
         .sum();
-    let p = 1.0 - overall;
-    if p.abs() < 1e-12 {
-        "s^-1".to_string()
-    } else {
-        format!("M^{} s^-1", (p * 1e4).round() / 1e4)
-    }
+    k_unit_for(overall)
 }
 
 /// The refit command with only values `--orders` accepts: an implausible fitted order is
@@ -165,10 +160,16 @@ fn refit(prior: &Prior, fit: &Fit) -> (Option<String>, Vec<String>) {
     )
 }
 
-/// The `[reaction]` fragment with the fitted k, Ea and orders.
-fn reaction_toml(prior: &Prior, fit: &Fit, unit: &str, times_name: &str) -> String {
+/// A TOML string literal.
+pub(super) fn q(s: &str) -> String {
+    toml::Value::String(s.to_string()).to_string()
+}
+
+/// The `[reaction]` lines a fit writes back before its terms: the equations, the visible end
+/// point (criterion and factor included) and the ionic strength the k hold at, so the pasted
+/// prior is the model that was fitted.
+pub(super) fn reaction_header(prior: &Prior) -> Vec<String> {
     let reaction = &prior.reaction;
-    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
     let side = |v: &Vec<(String, f64)>| {
         v.iter()
             .map(|(s, c)| {
@@ -192,11 +193,35 @@ fn reaction_toml(prior: &Prior, fit: &Fit, unit: &str, times_name: &str) -> Stri
     ];
     if let Some(v) = &reaction.visible {
         out.push(format!(
-            "visible = {{ threshold = {}, source = {} }}",
+            "visible = {{ threshold = {}, as = {}, factor = {}, source = {} }}",
             q(&format!("{} M", sig4(v.threshold))),
+            q(v.criterion.word()),
+            sig4(v.factor),
             q(v.source.as_deref().unwrap_or(""))
         ));
     }
+    if let Some(i) = reaction.salt_reference {
+        out.push(format!(
+            "k_at_ionic_strength = {}",
+            q(&format!("{} M", sig4(i)))
+        ));
+    }
+    out
+}
+
+/// The unit of k for a term of this overall order, as a spec writes it.
+pub(super) fn k_unit_for(overall: f64) -> String {
+    let p = 1.0 - (overall * 1e4).round() / 1e4;
+    if p.abs() < 1e-12 {
+        "s^-1".to_string()
+    } else {
+        format!("M^{} s^-1", (p * 1e4).round() / 1e4)
+    }
+}
+
+/// The `[reaction]` fragment with the fitted k, Ea and orders.
+fn reaction_toml(prior: &Prior, fit: &Fit, unit: &str, times_name: &str) -> String {
+    let mut out = reaction_header(prior);
     out.push(String::new());
     out.push("[[reaction.term]]".into());
     out.push(format!(
@@ -237,6 +262,68 @@ fn reaction_toml(prior: &Prior, fit: &Fit, unit: &str, times_name: &str) -> Stri
     s
 }
 
+/// The residual table of a fit: times in ms when every trial is under a second, else in s.
+pub(super) fn residual_table(residuals: &[FitResidual]) -> Block {
+    let (scale, unit) = if residuals.iter().all(|r| r.measured_s < 1.0) {
+        (1e3, "ms")
+    } else {
+        (1.0, "s")
+    };
+    let rows = residuals
+        .iter()
+        .map(|r| {
+            vec![
+                r.line.to_string(),
+                r.run.clone(),
+                sig4(r.measured_s * scale),
+                sig4(r.fitted_s * scale),
+                format!("{:+.4}", r.ln_ratio),
+                format!("{:+.2}", r.studentized),
+                if r.outlier {
+                    "<- outlier".into()
+                } else {
+                    String::new()
+                },
+            ]
+        })
+        .collect();
+    let mut align = vec![Align::Right; 7];
+    align[1] = Align::Left;
+    align[6] = Align::Left;
+    Block::Table(
+        Table::with_align(
+            vec![
+                "line".into(),
+                "run".into(),
+                format!("measured ({unit})"),
+                format!("fitted ({unit})"),
+                "ln(measured/fitted)".into(),
+                "studentized".into(),
+                String::new(),
+            ],
+            align,
+            rows,
+        )
+        .nested(),
+    )
+}
+
+/// The residuals of a fit as the report lists them.
+pub(super) fn residual_rows(residuals: &[crate::kinetics::fit::Residual]) -> Vec<FitResidual> {
+    residuals
+        .iter()
+        .map(|r| FitResidual {
+            line: r.line,
+            run: r.run.clone(),
+            measured_s: r.time,
+            fitted_s: r.predicted,
+            ln_ratio: r.residual,
+            studentized: r.studentized,
+            outlier: r.outlier,
+        })
+        .collect()
+}
+
 impl FitSheet {
     pub fn build(spec: &Spec, prior: &Prior, fit: &Fit, times_name: &str) -> FitSheet {
         let unit = k_unit(fit);
@@ -273,19 +360,7 @@ impl FitSheet {
                 .map(|e| interval(e, 1e-3)),
             activation_energy_fitted: fit.ea_fitted,
             activation_energy_note: fit.ea_note.clone(),
-            residuals: fit
-                .residuals
-                .iter()
-                .map(|r| FitResidual {
-                    line: r.line,
-                    run: r.run.clone(),
-                    measured_s: r.time,
-                    fitted_s: r.predicted,
-                    ln_ratio: r.residual,
-                    studentized: r.studentized,
-                    outlier: r.outlier,
-                })
-                .collect(),
+            residuals: residual_rows(&fit.residuals),
             warnings: fit.warnings.clone(),
             refit,
             refit_notes,
@@ -345,50 +420,7 @@ impl FitSheet {
                 self.activation_energy_note
             )),
         };
-        // Times in ms when the trials are shorter than a second, else in s.
-        let (scale, unit) = if self.residuals.iter().all(|r| r.measured_s < 1.0) {
-            (1e3, "ms")
-        } else {
-            (1.0, "s")
-        };
-        let rows = self
-            .residuals
-            .iter()
-            .map(|r| {
-                vec![
-                    r.line.to_string(),
-                    r.run.clone(),
-                    sig4(r.measured_s * scale),
-                    sig4(r.fitted_s * scale),
-                    format!("{:+.4}", r.ln_ratio),
-                    format!("{:+.2}", r.studentized),
-                    if r.outlier {
-                        "<- outlier".into()
-                    } else {
-                        String::new()
-                    },
-                ]
-            })
-            .collect();
-        let mut align = vec![Align::Right; 7];
-        align[1] = Align::Left;
-        align[6] = Align::Left;
-        s.push(Block::Table(
-            Table::with_align(
-                vec![
-                    "line".into(),
-                    "run".into(),
-                    format!("measured ({unit})"),
-                    format!("fitted ({unit})"),
-                    "ln(measured/fitted)".into(),
-                    "studentized".into(),
-                    String::new(),
-                ],
-                align,
-                rows,
-            )
-            .nested(),
-        ));
+        s.push(residual_table(&self.residuals));
         s.push(Block::Warnings(self.warnings.clone()));
         for n in &self.refit_notes {
             s.para(format!("Note: {n}."));

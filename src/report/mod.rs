@@ -3,6 +3,7 @@
 
 mod design;
 mod fit;
+mod fit_terms;
 mod forecast;
 pub mod page;
 mod pages;
@@ -13,6 +14,25 @@ pub mod words;
 
 pub use design::{DesignSheet, DesignedRunReport, PrecisionReport};
 pub use fit::{FitOrder, FitResidual, FitSheet, Interval};
+pub use fit_terms::{FitTerm, TermsFitSheet};
+
+/// The report of `clockprep fit`: a one-term rate law (orders and Ea may be fitted) or several
+/// terms (each k fitted).
+#[derive(Debug, Clone)]
+pub enum FitReport {
+    OneTerm(FitSheet),
+    Terms(TermsFitSheet),
+}
+
+impl FitReport {
+    /// Whether the fit has warnings (exit code 1).
+    pub fn flagged(&self) -> bool {
+        match self {
+            FitReport::OneTerm(s) => s.flagged,
+            FitReport::Terms(s) => s.flagged,
+        }
+    }
+}
 pub use forecast::*;
 pub use station::{DeviceChoice, GlasswareItem, TrayItem};
 pub use stocks::*;
