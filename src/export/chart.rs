@@ -196,6 +196,7 @@ mod tests {
             rate: Some(1e-6),
             initial_rate: Some(1e-6),
             volumetric_uncertainty_pct: None,
+            clock_volumetric_uncertainty_pct: None,
             visible_extra_range_s: None,
             threshold_uncertainty_pct: None,
             visible_extra_uncertainty_pct: None,

@@ -91,6 +91,14 @@ impl Rows {
             "volumetric_uncertainty_pct",
             opt(f.volumetric_uncertainty_pct),
         );
+        if f.visible_extra_s.is_some() {
+            self.value(
+                run,
+                "forecast",
+                "clock_volumetric_uncertainty_pct",
+                opt(f.clock_volumetric_uncertainty_pct),
+            );
+        }
         for w in &f.warnings {
             self.value(run, "warning", w.code, w.message.clone());
         }

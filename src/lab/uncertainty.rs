@@ -18,8 +18,10 @@ use crate::spec::{Lab, Spec};
 pub struct RunUncertainty {
     /// Per species, as in the run's concentrations.
     pub species: Vec<(String, f64)>,
-    /// Of the forecast time, when there is one.
+    /// Of the forecast time (to visible colour when a threshold is known), when there is one.
     pub time: Option<f64>,
+    /// Of the clock time alone (until the timing reagent is used up).
+    pub clock: Option<f64>,
 }
 
 /// First-order propagation for one solved run.
@@ -55,7 +57,20 @@ pub fn propagate(spec: &Spec, lab: &Lab, run: &RunSolution) -> RunUncertainty {
         .collect();
 
     let time = time_sensitivity(spec, lab, run).map(|g| combine(&g.volume, &g.stock));
-    RunUncertainty { species, time }
+    let visible = spec
+        .prior
+        .as_ref()
+        .is_some_and(|p| p.reaction.visible.is_some());
+    let clock = if visible {
+        sensitivity_of(spec, lab, run, |t| t.clock).map(|g| combine(&g.volume, &g.stock))
+    } else {
+        time
+    };
+    RunUncertainty {
+        species,
+        time,
+        clock,
+    }
 }
 
 /// How the forecast time of one run answers each addition and its stock.
@@ -88,6 +103,16 @@ fn partials(lab: &Lab, adds: &[crate::solve::Addition], sp: &str) -> (Vec<f64>, 
 /// log sensitivity to every species (central differences, the timing species included) chained
 /// through the dilution. None without a prior or when the run has no clock.
 pub fn time_sensitivity(spec: &Spec, lab: &Lab, run: &RunSolution) -> Option<TimeSensitivity> {
+    sensitivity_of(spec, lab, run, crate::kinetics::Timing::to_colour)
+}
+
+/// The same for the time `pick` takes from the forecast (the clock alone, or to colour).
+fn sensitivity_of(
+    spec: &Spec,
+    lab: &Lab,
+    run: &RunSolution,
+    pick: fn(&crate::kinetics::Timing) -> f64,
+) -> Option<TimeSensitivity> {
     let p = spec.prior.as_ref()?;
     let (reaction, f) = (&p.reaction, &p.settings);
     let adds = &run.additions;
@@ -96,7 +121,7 @@ pub fn time_sensitivity(spec: &Spec, lab: &Lab, run: &RunSolution) -> Option<Tim
     let ln_t = |c0: &[(String, f64)], timing: f64| -> Option<f64> {
         RunKinetics::new(reaction, c0, timing)
             .ok()
-            .map(|k| k.at(f.temperature).to_colour().ln())
+            .map(|k| pick(&k.at(f.temperature)).ln())
     };
     ln_t(c0, timing)?;
     let h: f64 = 1e-4;

@@ -37,6 +37,8 @@ pub struct ForecastReport {
     pub initial_rate: Option<f64>,
     /// Relative standard uncertainty (k = 1) of the time from glassware and stocks, percent.
     pub volumetric_uncertainty_pct: Option<f64>,
+    /// The same for the clock time alone, percent.
+    pub clock_volumetric_uncertainty_pct: Option<f64>,
     /// The visible wait with the threshold at the low and high end of its factor, s.
     pub visible_extra_range_s: Option<[f64; 2]>,
     /// Relative standard uncertainty (k = 1) of the time to colour from the visible
@@ -160,6 +162,7 @@ pub(super) fn forecast_report(f: &RunForecast) -> ForecastReport {
         rate: f.implied_rate.map(sig10),
         initial_rate: f.timing.map(|t| sig10(t.rate0)),
         volumetric_uncertainty_pct: None,
+        clock_volumetric_uncertainty_pct: None,
         visible_extra_range_s: f.visible_range.map(|(a, b)| [sig10(a), sig10(b)]),
         threshold_uncertainty_pct: f
             .visible_range

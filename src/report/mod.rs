@@ -342,8 +342,9 @@ pub fn build(
                         .map(|(s, v)| (s.clone(), sig10(*v)))
                         .collect(),
                 );
-                if let (Some(f), Some(t)) = (body.forecast.as_mut(), u.time) {
-                    f.volumetric_uncertainty_pct = Some(sig10(t * 100.0));
+                if let Some(f) = body.forecast.as_mut() {
+                    f.volumetric_uncertainty_pct = u.time.map(|t| sig10(t * 100.0));
+                    f.clock_volumetric_uncertainty_pct = u.clock.map(|t| sig10(t * 100.0));
                 }
                 std::sync::Arc::new(body)
             }

@@ -106,10 +106,14 @@ pub fn forecast_lines(f: &ForecastReport) -> Vec<String> {
             c * 100.0
         ));
     }
-    if let Some(u) = f.volumetric_uncertainty_pct {
-        out.push(format!(
+    match (f.volumetric_uncertainty_pct, f.clock_volumetric_uncertainty_pct) {
+        (Some(u), Some(c)) if f.visible_extra_s.is_some() => out.push(format!(
+            "Glassware and stocks alone make the time uncertain by {u:.2} % (k = 1); the clock time alone by {c:.2} %."
+        )),
+        (Some(u), _) => out.push(format!(
             "Glassware and stocks alone make the time uncertain by {u:.2} % (k = 1)."
-        ));
+        )),
+        _ => {}
     }
     out
 }
