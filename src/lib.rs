@@ -82,7 +82,8 @@ fn stock_sheet(
     let totals = lab::totals::compute(spec, lab, solution);
     let preps = lab::recipes::prepare(lab, &totals);
     let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, uncertainty);
-    report::build_stocks(spec, lab, &preps, &dominant)
+    let small = lab::recipes::small_masses(lab, &preps);
+    report::build_stocks(spec, lab, &preps, &dominant, &small)
 }
 
 /// Forecast clock times: from the delivered concentrations when the spec lists stocks (as

@@ -15,6 +15,8 @@ pub enum Kind {
     Temperature,
     Fraction,
     Time,
+    /// Only through [`parse_mass`] (a balance's readability).
+    Mass,
 }
 
 impl Kind {
@@ -26,6 +28,7 @@ impl Kind {
             Kind::Temperature => "\"21 °C\" (also degC or K)",
             Kind::Fraction => "\"15 %\"",
             Kind::Time => "\"90 s\" (also min or h)",
+            Kind::Mass => "\"0.01 g\" (also mg)",
         }
     }
 
@@ -36,6 +39,7 @@ impl Kind {
             Kind::Temperature => "a temperature",
             Kind::Fraction => "a percentage",
             Kind::Time => "a time",
+            Kind::Mass => "a mass",
         }
     }
 }
@@ -383,6 +387,25 @@ pub fn parse_density(text: &str) -> Result<f64, UnitError> {
         "" => return Err(UnitError::MissingUnit { at: p.number_at }),
         "g/mL" | "g/ml" | "g/cm3" | "g/cm^3" | "kg/L" => 1.0,
         "g/L" => 1e-3,
+        other => {
+            return Err(UnitError::UnknownUnit {
+                unit: other.to_string(),
+                at: p.unit_at,
+            })
+        }
+    };
+    Ok(p.value * factor)
+}
+
+/// A mass in grams from "0.01 g", "1 mg" or "0.1 mg" (a balance's readability).
+pub fn parse_mass(text: &str) -> Result<f64, UnitError> {
+    let p = split_number(text)?;
+    let factor = match p.unit {
+        "" => return Err(UnitError::MissingUnit { at: p.number_at }),
+        "g" => 1.0,
+        "mg" => 1e-3,
+        "ug" | "µg" => 1e-6,
+        "kg" => 1e3,
         other => {
             return Err(UnitError::UnknownUnit {
                 unit: other.to_string(),

@@ -283,6 +283,14 @@ impl Exporter for Csv {
             ])
             .expect("writing to memory cannot fail");
         }
+        // The sheet's advice (standardize, masses too small for the balance) as rows of their
+        // own, the sentence in `instruction`.
+        for a in &sheet.advice {
+            let mut row = vec![String::new(); 12];
+            row[6] = "advice".into();
+            row[11] = a.clone();
+            w.write_record(row).expect("writing to memory cannot fail");
+        }
         w.into_inner().expect("writing to memory cannot fail")
     }
 }

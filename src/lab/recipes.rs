@@ -114,6 +114,98 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
         .collect()
 }
 
+/// A mass too small for the balance, and how to weigh more.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SmallMass {
+    pub stock: usize,
+    /// g per flask, and how many readabilities of the balance that is.
+    pub grams: f64,
+    pub readabilities: f64,
+    /// A stronger stock to weigh instead and dilute (M1V1 = M2V2), when one fits the flasks.
+    pub concentrate: Option<Concentrate>,
+    /// The smallest larger flask whose mass is enough: (flask L, g), when the shelf has one.
+    pub larger_flask: Option<(f64, f64)>,
+}
+
+/// A ×`factor` concentrate of a weighed stock: weighed in its own flask, then an aliquot of it
+/// made up in the stock's flask.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Concentrate {
+    pub factor: f64,
+    /// L and g per flask of the concentrate.
+    pub flask: f64,
+    pub flask_count: u32,
+    pub grams: f64,
+    /// L of concentrate per flask of the stock: its flask / factor.
+    pub aliquot: f64,
+}
+
+/// Concentrate factors tried, smallest first (round dilutions, common practice).
+const FACTORS: [f64; 7] = [10.0, 20.0, 50.0, 100.0, 200.0, 500.0, 1000.0];
+/// Smallest aliquot a concentrate is diluted by: 1 mL, the smallest transfer pipet of a
+/// teaching prep room (common practice).
+const MIN_ALIQUOT: f64 = 1e-3;
+
+/// Every weighed mass under [`MIN_READABILITIES`] readabilities of the lab's balance, with the
+/// alternatives: the smallest round concentrate whose own mass is enough (its flask from the
+/// shelf holding what the dilution draws) and the smallest larger flask whose mass is enough.
+///
+/// [`MIN_READABILITIES`]: crate::spec::MIN_READABILITIES
+pub fn small_masses(lab: &Lab, preps: &[Preparation]) -> Vec<SmallMass> {
+    let least = crate::spec::MIN_READABILITIES * lab.balance;
+    preps
+        .iter()
+        .filter_map(|p| {
+            let Action::Weigh { grams } = p.action else {
+                return None;
+            };
+            let Recipe::Weigh {
+                concentration,
+                molar_mass,
+                purity,
+                ..
+            } = &lab.stocks[p.stock].recipe
+            else {
+                return None;
+            };
+            if grams >= least {
+                return None;
+            }
+            let concentrate = FACTORS.iter().find_map(|&factor| {
+                let aliquot = p.flask / factor;
+                if aliquot < MIN_ALIQUOT {
+                    return None;
+                }
+                let drawn = aliquot * p.flask_count as f64;
+                let (flask, flask_count) = flask_for(drawn, &lab.flasks);
+                let g = mass_to_weigh(concentration * factor, flask, *molar_mass, *purity);
+                (g >= least).then_some(Concentrate {
+                    factor,
+                    flask,
+                    flask_count,
+                    grams: g,
+                    aliquot,
+                })
+            });
+            let larger_flask = if p.flask_count == 1 {
+                lab.flasks
+                    .iter()
+                    .find(|&&f| f > p.flask && grams * f / p.flask >= least)
+                    .map(|&f| (f, grams * f / p.flask))
+            } else {
+                None
+            };
+            Some(SmallMass {
+                stock: p.stock,
+                grams,
+                readabilities: grams / lab.balance,
+                concentrate,
+                larger_flask,
+            })
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

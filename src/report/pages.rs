@@ -550,6 +550,23 @@ impl StockSheet {
         if !self.advice.is_empty() {
             table.push(Block::Warnings(self.advice.clone()));
         }
+        for c in self
+            .small_masses
+            .iter()
+            .filter_map(|m| m.concentrate.as_ref())
+        {
+            table.para(format!("The [[stock]] of '{}':", c.name));
+            table.push(Block::Verbatim(c.toml.clone()));
+        }
+        table.para(format!(
+            "Masses are checked against a balance reading to {} g{}.",
+            self.balance,
+            if self.balance_stated {
+                " ([plan] balance)"
+            } else {
+                " (the default: give [plan] balance for yours)"
+            }
+        ));
         let mut sections = vec![head, table];
         for s in &self.stocks {
             let mut sec = Section::new(s.name.clone());

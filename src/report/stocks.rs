@@ -16,9 +16,75 @@ pub struct StockSheet {
     #[serde(rename = "overage_pct")]
     pub overage_pct: f64,
     pub stocks: Vec<StockPrep>,
-    /// Stocks worth standardizing: their own uncertainty is most of a target's in some run.
+    /// Stocks worth standardizing (their own uncertainty is most of a target's in some run),
+    /// and masses too small for the balance, in words.
     pub advice: Vec<String>,
+    /// Readability of the balance the masses are checked against, g, and whether the spec
+    /// gave it (else the two-decimal default).
+    #[serde(rename = "balance_g")]
+    pub balance: f64,
+    pub balance_stated: bool,
+    /// Masses under 100 readabilities of the balance, with the alternatives.
+    pub small_masses: Vec<SmallMassReport>,
     pub cautions: Vec<String>,
+}
+
+/// A mass too small for the balance.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SmallMassReport {
+    pub stock: String,
+    pub grams: f64,
+    pub readabilities: f64,
+    /// The stronger stock to weigh instead, when one fits the shelf's flasks.
+    pub concentrate: Option<ConcentrateReport>,
+    /// The smallest larger flask whose mass is enough, and that mass.
+    #[serde(rename = "larger_flask_mL")]
+    pub larger_flask_ml: Option<f64>,
+    pub larger_flask_grams: Option<f64>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ConcentrateReport {
+    pub name: String,
+    pub factor: f64,
+    pub grams: f64,
+    #[serde(rename = "flask_mL")]
+    pub flask_ml: f64,
+    /// mL of concentrate made up to the stock's flask.
+    #[serde(rename = "aliquot_mL")]
+    pub aliquot_ml: f64,
+    /// The concentrate's `[[stock]]` to paste into the spec; the stock itself then takes
+    /// `dilute_from` (the name) instead of `solute` and `purity`.
+    pub toml: String,
+}
+
+/// The concentrate's `[[stock]]` table for a weighed stock.
+fn concentrate_toml(st: &crate::spec::Stock, name: &str, factor: f64) -> String {
+    use crate::spec::Recipe;
+    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
+    let contains: Vec<String> = st
+        .contains
+        .iter()
+        .map(|(sp, c)| format!("{} = {}", q(sp), q(&format!("{} M", sig10(c * factor)))))
+        .collect();
+    let mut lines = vec![
+        "[[stock]]".to_string(),
+        format!("name = {}", q(name)),
+        format!("solute = {}", q(st.solute.as_deref().unwrap_or(""))),
+    ];
+    if let Recipe::Weigh { purity, .. } = st.recipe {
+        if purity < 1.0 {
+            lines.push(format!(
+                "purity = {}",
+                q(&format!("{} %", sig10(purity * 100.0)))
+            ));
+        }
+    }
+    lines.push(format!("contains = {{ {} }}", contains.join(", ")));
+    lines.push("in_runs = false".into());
+    let mut out = lines.join("\n");
+    out.push('\n');
+    out
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -73,8 +139,9 @@ pub fn build_stocks(
     lab: &Lab,
     preps: &[crate::lab::recipes::Preparation],
     dominant: &[(usize, Vec<String>)],
+    small: &[crate::lab::recipes::SmallMass],
 ) -> StockSheet {
-    let advice = dominant
+    let mut advice: Vec<String> = dominant
         .iter()
         .map(|(s, species)| {
             let st = &lab.stocks[*s];
@@ -175,6 +242,57 @@ pub fn build_stocks(
                 .collect::<Vec<_>>(),
         )
     });
+    let balance = sig10(lab.balance);
+    let small_masses: Vec<SmallMassReport> = small
+        .iter()
+        .map(|m| {
+            let st = &lab.stocks[m.stock];
+            let concentrate = m.concentrate.as_ref().map(|c| {
+                let name = format!("{} concentrate x{}", st.name, sig10(c.factor));
+                ConcentrateReport {
+                    toml: concentrate_toml(st, &name, c.factor),
+                    name,
+                    factor: c.factor,
+                    grams: sig10(c.grams),
+                    flask_ml: ml(c.flask),
+                    aliquot_ml: ml(c.aliquot),
+                }
+            });
+            let mut text = format!(
+                "'{}': {:.4} g is {:.0} readabilities of the {balance} g balance (one readability is {:.1} % of it); weigh 100 or more (about 1 %).",
+                st.name,
+                m.grams,
+                m.readabilities.floor(),
+                100.0 / m.readabilities
+            );
+            if let Some(c) = &concentrate {
+                text.push_str(&format!(
+                    " Make '{}' instead ({:.4} g in a {} mL flask) and deliver {} mL of it into each {} mL flask of '{}' (M1V1 = M2V2): paste its [[stock]] (below) above that of '{}' and give it dilute_from = \"{}\" in place of its solute and purity.",
+                    c.name, c.grams, sig10(c.flask_ml), sig10(c.aliquot_ml),
+                    sig10(ml(preps.iter().find(|p| p.stock == m.stock).map_or(0.0, |p| p.flask))),
+                    st.name, st.name, c.name
+                ));
+            }
+            if let Some((f, g)) = m.larger_flask {
+                text.push_str(&format!(
+                    " Or make it in a {} mL flask ({g:.4} g).",
+                    sig10(f * 1e3)
+                ));
+            }
+            if concentrate.is_none() && m.larger_flask.is_none() {
+                text.push_str(" No round concentrate or larger flask on the shelf reaches 100: use a balance reading to less, and give it as [plan] balance.");
+            }
+            advice.push(text);
+            SmallMassReport {
+                stock: st.name.clone(),
+                grams: sig10(m.grams),
+                readabilities: sig10(m.readabilities),
+                concentrate,
+                larger_flask_ml: m.larger_flask.map(|(f, _)| ml(f)),
+                larger_flask_grams: m.larger_flask.map(|(_, g)| sig10(g)),
+            }
+        })
+        .collect();
     StockSheet {
         format: STOCKS_FORMAT,
         title: spec.title.clone(),
@@ -184,6 +302,9 @@ pub fn build_stocks(
         overage_pct: sig10(lab.overage * 100.0),
         stocks,
         advice,
+        balance: lab.balance,
+        balance_stated: lab.balance_stated,
+        small_masses,
         cautions: reagents::cautions(used),
     }
 }

@@ -253,6 +253,14 @@ pub struct Spec {
     pub design: Option<Design>,
 }
 
+/// Readability (g) assumed when `[plan] balance` is not given: the two-decimal top-loading
+/// balance of an ordinary prep room (common practice).
+pub const DEFAULT_BALANCE: f64 = 0.01;
+
+/// A mass to weigh should be at least this many readabilities of the balance: its rounding
+/// then stays within about 1 % (common practice).
+pub const MIN_READABILITIES: f64 = 100.0;
+
 /// The bench side of a spec: what `plan` and `stocks` solve and total.
 #[derive(Debug, Clone)]
 pub struct Lab {
@@ -268,6 +276,10 @@ pub struct Lab {
     /// `[plan] stock_uncertainty` when the spec gives it: every stock without its own
     /// `uncertainty` then takes it instead of its recipe's default.
     pub stock_uncertainty: Option<f64>,
+    /// Readability (g) of the balance the stocks are weighed on, and whether the spec gave it
+    /// (else [`DEFAULT_BALANCE`]).
+    pub balance: f64,
+    pub balance_stated: bool,
     pub stocks: Vec<Stock>,
     pub devices: Vec<Device>,
     /// Where each device's name is written in the spec.

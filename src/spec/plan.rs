@@ -18,6 +18,7 @@ struct LabSettings {
     tolerance: f64,
     flasks: Vec<f64>,
     stock_uncertainty: Option<f64>,
+    balance: Option<f64>,
 }
 
 /// The devices by name, for resolving `devices = [...]` lists.
@@ -47,6 +48,7 @@ impl Checker<'_> {
             tolerance: self.tolerance(plan)?,
             flasks: self.flasks(&raw.plan)?,
             stock_uncertainty: self.stock_uncertainty(plan)?,
+            balance: self.balance(plan)?,
         };
         let temperature = self.temperature(plan)?;
         let shelf = self.shelf(&raw)?;
@@ -109,6 +111,8 @@ impl Checker<'_> {
                 tolerance: settings.tolerance,
                 flasks: settings.flasks,
                 stock_uncertainty: settings.stock_uncertainty,
+                balance: settings.balance.unwrap_or(super::model::DEFAULT_BALANCE),
+                balance_stated: settings.balance.is_some(),
                 stocks,
                 devices: shelf.devices,
                 device_spans: shelf.spans,
@@ -248,6 +252,29 @@ impl Checker<'_> {
                 "e.g. stock_uncertainty = \"0.3 %\"",
             )?),
         })
+    }
+
+    /// The readability of the balance, when the spec gives it: from 0.1 µg to 1 g.
+    fn balance(&self, plan: &RawPlan) -> Result<Option<f64>> {
+        let Some(q) = &plan.balance else {
+            return Ok(None);
+        };
+        let g = self.special(
+            q,
+            "balance",
+            Kind::Mass,
+            Kind::Mass.example(),
+            crate::units::parse_mass,
+        )?;
+        if !(1e-7..=1.0).contains(&g) {
+            return Err(self.err(
+                inner(q.span(), &self.src.text),
+                "balance is the readability of the balance, from 0.0000001 g to 1 g",
+                "out of range",
+                "e.g. balance = \"0.01 g\" for a two-decimal top-loader, \"0.0001 g\" for an analytical balance",
+            ));
+        }
+        Ok(Some(g))
     }
 
     /// The `[[device]]`s, each name once.

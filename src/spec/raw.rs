@@ -85,6 +85,7 @@ pub(crate) struct RawPlan {
     pub(crate) flasks: Option<Vec<Q>>,
     pub(crate) temperature_band: Option<Q>,
     pub(crate) stock_uncertainty: Option<Q>,
+    pub(crate) balance: Option<Q>,
 }
 
 #[derive(Debug, Deserialize)]
