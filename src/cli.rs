@@ -123,6 +123,31 @@ pub enum Command {
         #[command(flatten)]
         write: WriteArgs,
     },
+    /// Write a commented starter spec for a reaction preset that solves as written.
+    Init {
+        /// The reaction preset.
+        #[arg(long, default_value = "bromate-iodide", value_parser = ["bromate-iodide", "persulfate-iodide", "peroxide-iodide"])]
+        preset: String,
+        /// Volume of every run, mL (whole, 10 to 100).
+        #[arg(long, default_value_t = 50)]
+        volume: u32,
+        /// Number of runs: the base, each rate-law species doubled, then each ×1.5.
+        #[arg(long, default_value_t = 4)]
+        runs: u32,
+        /// Bench groups working from the sheets.
+        #[arg(long, default_value_t = 4)]
+        stations: u32,
+        /// The sheets' title.
+        #[arg(long, default_value = "New clock-reaction lab (edit this title)")]
+        title: String,
+        #[command(flatten)]
+        write: WriteArgs,
+    },
+    /// Print the JSON Schema of the spec, for editors that validate and complete TOML.
+    Schema {
+        #[command(flatten)]
+        write: WriteArgs,
+    },
     /// Print a shell completion script (e.g. clockprep completions bash > ~/.local/share/bash-completion/completions/clockprep).
     Completions {
         #[arg(value_enum)]
@@ -233,7 +258,12 @@ fn read_spec(path: &Path) -> Result<SpecSource, Error> {
 
 fn read_named(path: &Path, what: &'static str) -> Result<SpecSource, Error> {
     let text = crate::output::read_input(path, what)?;
-    Ok(SpecSource::new(path.display().to_string(), text))
+    let name = if crate::output::is_stdin(path) {
+        "<stdin>".to_string()
+    } else {
+        path.display().to_string()
+    };
+    Ok(SpecSource::new(name, text))
 }
 
 /// Run one command; returns the exit code. Every output is guarded (not an input, not an
@@ -302,6 +332,9 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             format,
             write,
         } => guarded(&write, &[&spec, &times], || {
+            if crate::output::is_stdin(&spec) && crate::output::is_stdin(&times) {
+                return Err(Error::TwoStdin);
+            }
             let times_source = read_named(&times, "times file")?;
             let sheet = crate::fit(read_spec(&spec)?, times_source, orders.as_deref())?;
             Ok((export::export_fit(&sheet, format.into()), sheet.flagged()))
@@ -321,6 +354,28 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         } => guarded(&write, &[&spec], || {
             let sheet = crate::tune(read_spec(&spec)?)?;
             Ok((export::export_tune(&sheet, format.into()), !sheet.fits))
+        }),
+        Command::Init {
+            preset,
+            volume,
+            runs,
+            stations,
+            title,
+            write,
+        } => guarded(&write, &[], || {
+            let options = crate::spec::starter::StarterOptions {
+                preset,
+                volume_ml: volume,
+                runs,
+                stations,
+                title,
+            };
+            let text = crate::spec::starter::starter(&options)
+                .map_err(|message| Error::Starter { message })?;
+            Ok((text.into_bytes(), false))
+        }),
+        Command::Schema { write } => guarded(&write, &[], || {
+            Ok((crate::spec::schema().into_bytes(), false))
         }),
         Command::Completions { shell } => {
             use clap::CommandFactory;

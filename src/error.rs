@@ -130,6 +130,14 @@ pub enum Error {
     ))]
     Print { reason: String },
 
+    #[error("{message}")]
+    #[diagnostic(help("see clockprep init --help"))]
+    Starter { message: String },
+
+    #[error("the spec and the times cannot both be read from standard input")]
+    #[diagnostic(help("give one of them as a file path; `-` stands for standard input"))]
+    TwoStdin,
+
     /// The solver failed in a way the checks before it did not foresee.
     #[error("run '{run}': the solver stopped: {reason}")]
     #[diagnostic(help(

@@ -103,7 +103,13 @@ pub fn write_stdout(bytes: &[u8]) -> Result<()> {
 
 /// Read an input file (`what` names it in messages: "spec", "times file") as UTF-8 text.
 pub fn read_input(path: &Path, what: &'static str) -> Result<String> {
-    let bytes = std::fs::read(path).map_err(|cause| Error::ReadInput {
+    let read = if is_stdin(path) {
+        let mut bytes = Vec::new();
+        std::io::Read::read_to_end(&mut std::io::stdin(), &mut bytes).map(|_| bytes)
+    } else {
+        std::fs::read(path)
+    };
+    let bytes = read.map_err(|cause| Error::ReadInput {
         what,
         path: path.to_path_buf(),
         cause,
@@ -120,6 +126,11 @@ pub fn read_input(path: &Path, what: &'static str) -> Result<String> {
             column,
         }
     })
+}
+
+/// `-` stands for standard input.
+pub fn is_stdin(path: &Path) -> bool {
+    path == Path::new("-")
 }
 
 #[cfg(test)]

@@ -873,3 +873,75 @@ fn two_term_fit_fragment_pasted_back_forecasts_the_fitted_times() {
     assert_eq!(fit["residuals"][0]["line"], 2);
     approx::assert_relative_eq!(base, fitted, max_relative = 5e-4);
 }
+
+#[test]
+fn init_writes_a_starter_that_solves_as_written_for_every_preset() {
+    // Each preset's starter at a few run volumes plans with exit 0 (nothing flagged) and its
+    // stocks sheet is made; the largest run count too.
+    let dir = tempfile::tempdir().unwrap();
+    for (preset, runs) in [
+        ("bromate-iodide", "7"),
+        ("persulfate-iodide", "5"),
+        ("peroxide-iodide", "7"),
+    ] {
+        for volume in ["10", "37", "100"] {
+            let path = dir.path().join(format!("{preset}-{volume}.toml"));
+            clockprep()
+                .args([
+                    "init", "--preset", preset, "--volume", volume, "--runs", runs, "-o",
+                ])
+                .arg(&path)
+                .assert()
+                .code(0);
+            let text = std::fs::read_to_string(&path).unwrap();
+            assert!(text.contains("safety officer") && text.contains("SDS"));
+            for command in ["plan", "stocks", "forecast"] {
+                let out = clockprep().arg(command).arg(&path).output().unwrap();
+                assert_eq!(
+                    out.status.code(),
+                    Some(0),
+                    "{preset} {volume} mL {command}: {}{}",
+                    String::from_utf8_lossy(&out.stdout),
+                    String::from_utf8_lossy(&out.stderr)
+                );
+            }
+        }
+    }
+    // Out of range: refused, naming the flag, nothing written.
+    let path = dir.path().join("too-many.toml");
+    clockprep()
+        .args(["init", "--runs", "9", "-o"])
+        .arg(&path)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("--runs 9"));
+    assert!(!path.exists());
+}
+
+#[test]
+fn a_spec_read_from_standard_input_as_dash() {
+    let out = clockprep()
+        .args(["plan", "-", "-f", "json"])
+        .write_stdin(DEMO)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(report["runs"][0]["name"], "reference");
+    // Errors name it as <stdin>, with line and column.
+    clockprep()
+        .args(["plan", "-"])
+        .write_stdin(DEMO.replace("stations = 8", "statons = 8"))
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("<stdin>:9:1"));
+    // The spec and the times cannot both come from standard input.
+    clockprep()
+        .args(["fit", "-", "-"])
+        .write_stdin(DEMO)
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains(
+            "cannot both be read from standard input",
+        ));
+}

@@ -16,6 +16,7 @@ pub mod presets;
 mod prior;
 mod raw;
 mod reaction;
+pub mod starter;
 mod stocks;
 
 pub use model::*;
@@ -33,6 +34,21 @@ use raw::RawSpec;
 /// Parse and check a spec for planning.
 pub fn load(source: SpecSource) -> Result<Spec> {
     load_for(source, Purpose::Plan)
+}
+
+/// The JSON Schema (draft 2020-12) of a spec file, for editors that validate and complete TOML
+/// against one. Generated from the types serde reads, so it names exactly the keys clockprep
+/// accepts; the checks past shape (units, ranges, cross-checks) stay clockprep's.
+pub fn schema() -> String {
+    let mut schema = schemars::schema_for!(raw::RawSpec);
+    schema.insert("title".into(), "clockprep spec".into());
+    schema.insert(
+        "description".into(),
+        "A clock-reaction lab plan for clockprep: [plan], [timing], stocks, glassware, runs and the prior rate law".into(),
+    );
+    let mut text = serde_json::to_string_pretty(&schema).expect("a schema serializes");
+    text.push('\n');
+    text
 }
 
 /// Parse and check a spec for a purpose.
