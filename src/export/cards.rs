@@ -346,7 +346,8 @@ pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
             }
         }
     };
-    let mut out = doc.into_string().into_bytes();
+    let mut out =
+        super::typeset::document(&doc.into_string(), super::typeset::Style::Html).into_bytes();
     out.push(b'\n');
     out
 }

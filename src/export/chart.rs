@@ -162,7 +162,10 @@ pub fn svg(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> String
         }
     };
     let mut out = String::from("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
-    out.push_str(&markup.into_string());
+    out.push_str(&super::typeset::document(
+        &markup.into_string(),
+        super::typeset::Style::Unicode,
+    ));
     out.push('\n');
     out
 }

@@ -92,7 +92,8 @@ pub fn render(page: &Page) -> Vec<u8> {
             }
         }
     };
-    let mut out = m.into_string().into_bytes();
+    let mut out =
+        super::typeset::document(&m.into_string(), super::typeset::Style::Html).into_bytes();
     out.push(b'\n');
     out
 }

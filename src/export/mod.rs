@@ -12,6 +12,7 @@ mod markdown;
 pub mod pdf;
 mod text;
 mod toml;
+pub mod typeset;
 
 use crate::report::page::Page;
 use crate::report::{DesignSheet, FitReport, ForecastSheet, PlanReport, StockSheet, TuneSheet};
