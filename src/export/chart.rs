@@ -96,6 +96,20 @@ fn tick_label(t: f64) -> String {
     }
 }
 
+/// A window edge as a person says it: seconds under ten minutes, else minutes.
+fn duration(seconds: f64) -> String {
+    let (v, unit) = if seconds >= 600.0 {
+        (seconds / 60.0, "min")
+    } else {
+        (seconds, "s")
+    };
+    if (v - v.round()).abs() < 1e-9 {
+        format!("{v:.0} {unit}")
+    } else {
+        format!("{} {unit}", crate::units::sig(v, 3))
+    }
+}
+
 fn f(v: f64) -> String {
     format!("{v:.1}")
 }
@@ -109,10 +123,24 @@ pub fn svg(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> String
         }
         values.extend(r.forecast.time_s);
     }
-    let axis = Axis::new(&values);
+    // Minutes when anything runs past ten minutes, so slow runs do not read in thousands of s.
+    let scale = if values.iter().any(|v| *v > 600.0) {
+        60.0
+    } else {
+        1.0
+    };
+    let unit = if scale > 1.0 { "min" } else { "s" };
+    let scaled: Vec<f64> = values.iter().map(|v| v / scale).collect();
+    let axis = Axis::new(&scaled);
+    let x = |t: f64| axis.x(t / scale);
     let height = TOP + ROW * rows.len().max(1) as f64 + BOTTOM;
     let plot_bottom = TOP + ROW * rows.len().max(1) as f64;
-    let (w0, w1) = (axis.x(window.0), axis.x(window.1));
+    let (w0, w1) = (x(window.0), x(window.1));
+    let shown = |flagged: bool| {
+        rows.iter()
+            .any(|r| r.forecast.time_s.is_some() && r.forecast.warnings.is_empty() != flagged)
+    };
+    let (show_ok, show_flagged) = (shown(false), shown(true));
     let markup: Markup = html! {
         svg xmlns="http://www.w3.org/2000/svg" width=(f(WIDTH)) height=(f(height)) viewBox={"0 0 " (f(WIDTH)) " " (f(height))} font-family="sans-serif" font-size="12" role="img" {
             title { "Predicted time to colour: " (title) }
@@ -120,6 +148,9 @@ pub fn svg(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> String
             text x=(f(LEFT)) y="20" font-size="14" font-weight="bold" { "Predicted time to colour" }
             // The timing window, shaded.
             rect class="window" x=(f(w0)) y=(f(TOP - 6.0)) width=(f(w1 - w0)) height=(f(plot_bottom - TOP + 6.0)) fill="#e4e4e4" stroke="#999999" stroke-dasharray="4 3" {}
+            // Its edges, labelled.
+            text class="window-edge" x=(f(w0)) y=(f(TOP - 10.0)) text-anchor="middle" font-size="11" { (duration(window.0)) }
+            text class="window-edge" x=(f(w1)) y=(f(TOP - 10.0)) text-anchor="middle" font-size="11" { (duration(window.1)) }
             // Axis and ticks.
             line x1=(f(LEFT)) y1=(f(plot_bottom)) x2=(f(WIDTH - RIGHT)) y2=(f(plot_bottom)) stroke="black" {}
             @for t in axis.ticks() {
@@ -127,7 +158,7 @@ pub fn svg(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> String
                 text x=(f(axis.x(t))) y=(f(plot_bottom + 18.0)) text-anchor="middle" { (tick_label(t)) }
             }
             text x=(f((LEFT + WIDTH - RIGHT) / 2.0)) y=(f(plot_bottom + 38.0)) text-anchor="middle" {
-                "time to colour (s" @if axis.log { ", log scale" } "); bar: ±" (format!("{band_c:.1}")) " °C; shaded: timing window"
+                "time to colour (" (unit) @if axis.log { ", log scale" } "); bar: ±" (format!("{band_c:.1}")) " °C; shaded: timing window"
             }
             @for (i, r) in rows.iter().enumerate() {
                 @let y = TOP + ROW * i as f64 + ROW / 2.0;
@@ -136,28 +167,33 @@ pub fn svg(title: &str, rows: &[Row], window: (f64, f64), band_c: f64) -> String
                 text x=(f(LEFT - 8.0)) y=(f(y + 4.0)) text-anchor="end" { (r.name) }
                 @if let Some([a, b]) = r.forecast.band_s {
                     g class="band" stroke=(colour) stroke-width="1.5" {
-                        line x1=(f(axis.x(a))) y1=(f(y)) x2=(f(axis.x(b))) y2=(f(y)) {}
-                        line x1=(f(axis.x(a))) y1=(f(y - 5.0)) x2=(f(axis.x(a))) y2=(f(y + 5.0)) {}
-                        line x1=(f(axis.x(b))) y1=(f(y - 5.0)) x2=(f(axis.x(b))) y2=(f(y + 5.0)) {}
+                        line x1=(f(x(a))) y1=(f(y)) x2=(f(x(b))) y2=(f(y)) {}
+                        line x1=(f(x(a))) y1=(f(y - 5.0)) x2=(f(x(a))) y2=(f(y + 5.0)) {}
+                        line x1=(f(x(b))) y1=(f(y - 5.0)) x2=(f(x(b))) y2=(f(y + 5.0)) {}
                     }
                 }
                 @if let Some(t) = r.forecast.time_s {
-                    @let x = axis.x(t);
+                    @let px = x(t);
                     @if flagged {
-                        path class="flagged" d=(format!("M {} {} L {} {} L {} {} Z", f(x), f(y - 7.0), f(x + 7.0), f(y + 6.0), f(x - 7.0), f(y + 6.0))) fill=(colour) {}
+                        path class="flagged" d=(format!("M {} {} L {} {} L {} {} Z", f(px), f(y - 7.0), f(px + 7.0), f(y + 6.0), f(px - 7.0), f(y + 6.0))) fill=(colour) {}
                     } @else {
-                        circle class="ok" cx=(f(x)) cy=(f(y)) r="5" fill=(colour) {}
+                        circle class="ok" cx=(f(px)) cy=(f(y)) r="5" fill=(colour) {}
                     }
                 } @else {
                     text x=(f(LEFT + 6.0)) y=(f(y + 4.0)) fill=(colour) { "no clock" }
                 }
             }
-            // Legend.
+            // Legend: an entry only for a marker that is drawn.
             g transform=(format!("translate({} {})", f(LEFT), f(height - 14.0))) {
-                circle cx="0" cy="-4" r="5" fill="#2166ac" {}
-                text x="10" y="0" { "inside the window" }
-                path d="M 140 -11 L 147 2 L 133 2 Z" fill="#b2182b" {}
-                text x="152" y="0" { "flagged (see the sheet)" }
+                @if show_ok {
+                    circle cx="0" cy="-4" r="5" fill="#2166ac" {}
+                    text x="10" y="0" { "inside the window" }
+                }
+                @if show_flagged {
+                    @let dx = if show_ok { 140.0 } else { 0.0 };
+                    path d=(format!("M {} -11 L {} 2 L {} 2 Z", f(dx), f(dx + 7.0), f(dx - 7.0))) fill="#b2182b" {}
+                    text x=(f(dx + 12.0)) y="0" { "flagged (see the sheet)" }
+                }
             }
         }
     };
@@ -259,5 +295,22 @@ mod tests {
         assert_eq!(axis.lo, 0.0);
         assert_eq!(axis.hi, 120.0);
         assert!((axis.x(60.0) - (LEFT + 0.5 * (WIDTH - LEFT - RIGHT))).abs() < 1e-9);
+    }
+
+    #[test]
+    fn window_edges_labelled_minutes_for_slow_runs_and_legend_only_for_what_is_drawn() {
+        let row = |name: &str, t: f64, flagged: bool| Row {
+            name: name.into(),
+            forecast: forecast(t, flagged),
+        };
+        // Nothing flagged: no "flagged" legend entry; the window edges are written out.
+        let s = svg("t", &[row("a", 40.0, false)], (15.0, 600.0), 3.0);
+        assert!(!s.contains("flagged (see the sheet)") && s.contains("inside the window"));
+        assert!(s.contains(">15 s<") && s.contains(">10 min<"));
+        assert!(s.contains("time to colour (s"));
+        // A slow run past ten minutes: the axis in minutes; all flagged: no "inside" entry.
+        let s = svg("t", &[row("slow", 1800.0, true)], (15.0, 600.0), 3.0);
+        assert!(s.contains("time to colour (min"));
+        assert!(s.contains("flagged (see the sheet)") && !s.contains("inside the window"));
     }
 }
