@@ -83,7 +83,8 @@ fn stock_sheet(
     let preps = lab::recipes::prepare(lab, &totals);
     let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, uncertainty);
     let small = lab::recipes::small_masses(lab, &preps);
-    report::build_stocks(spec, lab, &preps, &dominant, &small)
+    let waste = lab::waste::waste(spec, lab, solution, &totals, &preps);
+    report::build_stocks(spec, lab, &preps, &dominant, &small, &waste)
 }
 
 /// Forecast clock times: from the delivered concentrations when the spec lists stocks (as

@@ -5,3 +5,4 @@ pub mod portions;
 pub mod recipes;
 pub mod totals;
 pub mod uncertainty;
+pub mod waste;

@@ -598,7 +598,41 @@ impl StockSheet {
             }
             sections.push(sec);
         }
+        sections.push(self.waste_section());
         sections.push(cautions(&self.cautions));
         Page { title, sections }
+    }
+
+    /// The waste figures: spent mixtures, left-over stock, the solutes in them.
+    fn waste_section(&self) -> Section {
+        let w = &self.waste;
+        let mut sec = Section::new("Waste");
+        sec.para(format!(
+            "Spent mixtures: {:.0} mL (every trial of every run at every station); left-over stock: {:.0} mL (made up but not delivered: overage, rinses and the flasks' rounding).",
+            w.spent_mixture_ml, w.leftover_total_ml
+        ));
+        let rows = w
+            .solutes
+            .iter()
+            .map(|x| {
+                vec![
+                    x.solute.clone(),
+                    x.stock.clone(),
+                    format!("{:.3}", x.grams),
+                    if x.hazard_codes.is_empty() {
+                        "-".into()
+                    } else {
+                        x.hazard_codes.join(", ")
+                    },
+                ]
+            })
+            .collect();
+        sec.push(Block::Table(Table::with_align(
+            headers(&["solute", "made up as", "total (g)", "hazard codes"]),
+            vec![Align::Left, Align::Left, Align::Right, Align::Left],
+            rows,
+        )));
+        sec.para("Everything made up ends as waste, in the spent mixtures or the left-over stock: collect both as your local rules require (a bromate or persulfate mixture is oxidising; bromate is a suspected carcinogen), never assume the drain is allowed, and ask your institution's safety officer.");
+        sec
     }
 }

@@ -26,7 +26,38 @@ pub struct StockSheet {
     pub balance_stated: bool,
     /// Masses under 100 readabilities of the balance, with the alternatives.
     pub small_masses: Vec<SmallMassReport>,
+    /// What the lab leaves for the waste bottle.
+    pub waste: WasteReport,
     pub cautions: Vec<String>,
+}
+
+/// The lab's waste: spent mixtures, left-over stock, and the solutes in them.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WasteReport {
+    /// Every trial's mixture, mL.
+    #[serde(rename = "spent_mixture_mL")]
+    pub spent_mixture_ml: f64,
+    /// Each stock made up and not delivered into a run or a dilution, mL.
+    pub leftover: Vec<LeftoverReport>,
+    #[serde(rename = "leftover_total_mL")]
+    pub leftover_total_ml: f64,
+    /// Each weighed or measured solute made up, all of which ends as waste.
+    pub solutes: Vec<WasteSolute>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LeftoverReport {
+    pub stock: String,
+    #[serde(rename = "mL")]
+    pub ml: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WasteSolute {
+    pub stock: String,
+    pub solute: String,
+    pub grams: f64,
+    pub hazard_codes: Vec<String>,
 }
 
 /// A mass too small for the balance.
@@ -140,6 +171,7 @@ pub fn build_stocks(
     preps: &[crate::lab::recipes::Preparation],
     dominant: &[(usize, Vec<String>)],
     small: &[crate::lab::recipes::SmallMass],
+    waste: &crate::lab::waste::Waste,
 ) -> StockSheet {
     let mut advice: Vec<String> = dominant
         .iter()
@@ -293,6 +325,38 @@ pub fn build_stocks(
             }
         })
         .collect();
+    let leftover: Vec<LeftoverReport> = waste
+        .leftover
+        .iter()
+        .map(|(s, l)| LeftoverReport {
+            stock: lab.stocks[*s].name.clone(),
+            ml: ml(*l),
+        })
+        .collect();
+    let waste = WasteReport {
+        spent_mixture_ml: ml(waste.spent),
+        leftover_total_ml: ml(waste.leftover.iter().map(|x| x.1).sum()),
+        leftover,
+        solutes: waste
+            .solutes
+            .iter()
+            .map(|(s, g)| {
+                let st = &lab.stocks[*s];
+                let species: Vec<&str> = st.contains.iter().map(|(x, _)| x.as_str()).collect();
+                WasteSolute {
+                    stock: st.name.clone(),
+                    solute: st.solute.clone().unwrap_or_default(),
+                    grams: sig10(*g),
+                    hazard_codes: crate::reference::reagents::reagent_for(
+                        st.solute.as_deref(),
+                        &species,
+                    )
+                    .map(|r| r.ghs.clone())
+                    .unwrap_or_default(),
+                }
+            })
+            .collect(),
+    };
     StockSheet {
         format: STOCKS_FORMAT,
         title: spec.title.clone(),
@@ -305,6 +369,7 @@ pub fn build_stocks(
         balance: lab.balance,
         balance_stated: lab.balance_stated,
         small_masses,
+        waste,
         cautions: reagents::cautions(used),
     }
 }
