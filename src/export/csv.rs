@@ -214,7 +214,7 @@ impl Exporter for Csv {
                 "stock_total",
                 &t.stock,
                 t.ml.to_string(),
-                format!("{} x {} mL flask", t.flask_count, t.flask_ml),
+                t.flasks.clone(),
                 e(),
             );
         }

@@ -3,17 +3,18 @@
 //! (c·V·M / (w·ρ)), or the volume of a stronger stock to dilute (M1V1 = M2V2). Stocks that are
 //! only diluted (bench concentrates) are added with the volume the dilutions draw from them.
 
-use crate::lab::totals::{flask_for, Totals};
+use crate::lab::totals::{flask_for, flasks_for_stock, hazardous, FlaskSet, Totals};
 use crate::spec::{Lab, Recipe};
 
+/// How a stock is made up, per litre of it (each flask takes its share).
 #[derive(Debug, Clone, PartialEq)]
 pub enum Action {
-    /// Grams of solid per flask.
-    Weigh { grams: f64 },
-    /// mL of liquid reagent per flask.
-    Measure { ml: f64 },
-    /// mL of another stock per flask.
-    Dilute { from: usize, ml: f64 },
+    /// Grams of solid per litre.
+    Weigh { grams_per_l: f64 },
+    /// mL of liquid reagent per litre.
+    Measure { ml_per_l: f64 },
+    /// mL of another stock per litre.
+    Dilute { from: usize, ml_per_l: f64 },
     /// Follow the method in use (no formula to compute from).
     AsUsual,
 }
@@ -23,11 +24,22 @@ pub struct Preparation {
     pub stock: usize,
     /// L needed: by the runs (with overage) plus what dilutions draw.
     pub need: f64,
-    /// L drawn by dilutions of other stocks.
+    /// L drawn by dilutions of other stocks (their aliquots, with the overage).
     pub drawn: f64,
-    pub flask: f64,
-    pub flask_count: u32,
+    pub flasks: FlaskSet,
     pub action: Action,
+}
+
+impl Action {
+    /// The amount (g or mL) for one flask of `litres`.
+    pub fn for_flask(&self, litres: f64) -> Option<f64> {
+        match self {
+            Action::Weigh { grams_per_l } => Some(grams_per_l * litres),
+            Action::Measure { ml_per_l } => Some(ml_per_l * litres),
+            Action::Dilute { ml_per_l, .. } => Some(ml_per_l * litres),
+            Action::AsUsual => None,
+        }
+    }
 }
 
 /// Mass (g) of a solid to weigh for `volume` L at `concentration` mol/L.
@@ -53,12 +65,13 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
         need[t.stock] = t.need;
         listed.push(t.stock);
     }
-    // Draws of dilutions from their sources (one level: a source is never itself a dilution).
+    // Draws of dilutions from their sources (one level: a source is never itself a dilution),
+    // with the overage for the aliquots' rinses and transfers.
     let mut drawn = vec![0.0; lab.stocks.len()];
     for &s in &listed {
         if let Recipe::Dilute { from, factor } = lab.stocks[s].recipe {
-            let (flask, count) = flask_for(need[s], &lab.flasks);
-            drawn[from] += flask * count as f64 * factor;
+            let made = flasks_for_stock(lab, s, need[s]).total();
+            drawn[from] += made * factor * (1.0 + lab.overage);
         }
     }
     for (s, &d) in drawn.iter().enumerate() {
@@ -71,7 +84,7 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
         .into_iter()
         .map(|s| {
             let total = need[s] + drawn[s];
-            let (flask, flask_count) = flask_for(total, &lab.flasks);
+            let flasks = flasks_for_stock(lab, s, total);
             let action = match &lab.stocks[s].recipe {
                 Recipe::Weigh {
                     concentration,
@@ -79,7 +92,7 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
                     purity,
                     ..
                 } => Action::Weigh {
-                    grams: mass_to_weigh(*concentration, flask, *molar_mass, *purity),
+                    grams_per_l: mass_to_weigh(*concentration, 1.0, *molar_mass, *purity),
                 },
                 Recipe::Measure {
                     concentration,
@@ -88,9 +101,9 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
                     density,
                     ..
                 } => Action::Measure {
-                    ml: liquid_volume_ml(
+                    ml_per_l: liquid_volume_ml(
                         *concentration,
-                        flask,
+                        1.0,
                         *molar_mass,
                         *mass_fraction,
                         *density,
@@ -98,7 +111,7 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
                 },
                 Recipe::Dilute { from, factor } => Action::Dilute {
                     from: *from,
-                    ml: factor * flask * 1e3,
+                    ml_per_l: factor * 1e3,
                 },
                 Recipe::None => Action::AsUsual,
             };
@@ -106,8 +119,7 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
                 stock: s,
                 need: total,
                 drawn: drawn[s],
-                flask,
-                flask_count,
+                flasks,
                 action,
             }
         })
@@ -118,12 +130,13 @@ pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
 #[derive(Debug, Clone, PartialEq)]
 pub struct SmallMass {
     pub stock: usize,
-    /// g per flask, and how many readabilities of the balance that is.
+    /// g in the stock's smallest flask, and how many readabilities of the balance that is.
     pub grams: f64,
     pub readabilities: f64,
     /// A stronger stock to weigh instead and dilute (M1V1 = M2V2), when one fits the flasks.
     pub concentrate: Option<Concentrate>,
-    /// The smallest larger flask whose mass is enough: (flask L, g), when the shelf has one.
+    /// The smallest larger flask whose mass is enough: (flask L, g), when the stock is made in
+    /// one flask and the shelf has one.
     pub larger_flask: Option<(f64, f64)>,
 }
 
@@ -132,11 +145,10 @@ pub struct SmallMass {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Concentrate {
     pub factor: f64,
-    /// L and g per flask of the concentrate.
-    pub flask: f64,
-    pub flask_count: u32,
+    /// The concentrate's flasks, and g in the smallest of them.
+    pub flasks: FlaskSet,
     pub grams: f64,
-    /// L of concentrate per flask of the stock: its flask / factor.
+    /// L of concentrate per (smallest) flask of the stock: its volume / factor.
     pub aliquot: f64,
 }
 
@@ -156,9 +168,12 @@ pub fn small_masses(lab: &Lab, preps: &[Preparation]) -> Vec<SmallMass> {
     preps
         .iter()
         .filter_map(|p| {
-            let Action::Weigh { grams } = p.action else {
+            let Action::Weigh { grams_per_l } = p.action else {
                 return None;
             };
+            // The smallest flask of the set weighs the least.
+            let flask = p.flasks.smallest();
+            let grams = grams_per_l * flask;
             let Recipe::Weigh {
                 concentration,
                 molar_mass,
@@ -172,26 +187,25 @@ pub fn small_masses(lab: &Lab, preps: &[Preparation]) -> Vec<SmallMass> {
                 return None;
             }
             let concentrate = FACTORS.iter().find_map(|&factor| {
-                let aliquot = p.flask / factor;
+                let aliquot = flask / factor;
                 if aliquot < MIN_ALIQUOT {
                     return None;
                 }
-                let drawn = aliquot * p.flask_count as f64;
-                let (flask, flask_count) = flask_for(drawn, &lab.flasks);
-                let g = mass_to_weigh(concentration * factor, flask, *molar_mass, *purity);
+                let drawn = p.flasks.total() / factor * (1.0 + lab.overage);
+                let set = flask_for(drawn, &lab.flasks, hazardous(lab, p.stock));
+                let g = mass_to_weigh(concentration * factor, set.smallest(), *molar_mass, *purity);
                 (g >= least).then_some(Concentrate {
                     factor,
-                    flask,
-                    flask_count,
+                    flasks: set,
                     grams: g,
                     aliquot,
                 })
             });
-            let larger_flask = if p.flask_count == 1 {
+            let larger_flask = if p.flasks.count() == 1 {
                 lab.flasks
                     .iter()
-                    .find(|&&f| f > p.flask && grams * f / p.flask >= least)
-                    .map(|&f| (f, grams * f / p.flask))
+                    .find(|&&f| f > flask && grams * f / flask >= least)
+                    .map(|&f| (f, grams * f / flask))
             } else {
                 None
             };

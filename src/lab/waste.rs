@@ -29,7 +29,7 @@ pub fn waste(
     let leftover = preps
         .iter()
         .map(|p| {
-            let made = p.flask * p.flask_count as f64;
+            let made = p.flasks.total();
             let used = totals
                 .stocks
                 .iter()
@@ -41,9 +41,9 @@ pub fn waste(
     let solutes = preps
         .iter()
         .filter_map(|p| {
-            let made = p.flask * p.flask_count as f64;
+            let made = p.flasks.total();
             match (&p.action, &lab.stocks[p.stock].recipe) {
-                (Action::Weigh { grams }, _) => Some((p.stock, grams * p.flask_count as f64)),
+                (Action::Weigh { grams_per_l }, _) => Some((p.stock, grams_per_l * made)),
                 (
                     Action::Measure { .. },
                     Recipe::Measure {

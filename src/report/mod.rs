@@ -163,9 +163,11 @@ pub struct StockTotal {
     /// Every station's rinsing and filling of the devices that hold it (included in mL).
     #[serde(rename = "dead_volume_mL")]
     pub dead_volume_ml: f64,
+    /// The largest flask and how many in all; `flasks` in words, e.g. "1 x 1000 mL + 1 x 250 mL".
     #[serde(rename = "flask_mL")]
     pub flask_ml: f64,
     pub flask_count: u32,
+    pub flasks: String,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -434,8 +436,9 @@ pub fn build(
                 one_set_ml: ml(t.per_station_set),
                 per_station_ml: ml(t.per_station_set * spec.replicates as f64),
                 dead_volume_ml: ml(t.dead_per_station * spec.stations as f64),
-                flask_ml: ml(t.flask),
-                flask_count: t.flask_count,
+                flask_ml: ml(t.flasks.largest()),
+                flask_count: t.flasks.count(),
+                flasks: t.flasks.label(),
             })
             .collect(),
         water_total_ml: ml(totals.water),

@@ -376,7 +376,7 @@ impl PlanReport {
     fn totals_section(&self) -> Section {
         let mut s = Section::new("Stock to prepare");
         s.para(format!(
-            "All runs x {} replicate(s) x {} station(s), plus {} % overage, plus each station's rinse and fill, rounded up to a volumetric flask.",
+            "All runs x {} replicate(s) x {} station(s), plus {} % overage, plus each station's rinse and fill, in the volumetric flasks with the least surplus.",
             self.replicates, self.stations, sig(self.overage_pct, 3)
         ));
         let mut rows: Vec<Vec<String>> = self
@@ -389,7 +389,7 @@ impl PlanReport {
                     format!("{:.1}", t.per_station_ml),
                     format!("{:.1}", t.used_ml),
                     format!("{:.1}", t.ml),
-                    format!("{} x {} mL", t.flask_count, t.flask_ml),
+                    t.flasks.clone(),
                 ]
             })
             .collect();
@@ -514,7 +514,7 @@ impl StockSheet {
         let mut head = Section::new(title.clone());
         head.para(format!("Spec: {}", self.spec));
         head.para(format!(
-            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in volumetric flasks.",
+            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in the volumetric flasks with the least surplus (fewest flasks on a tie).",
             self.stations, self.replicates, sig(self.overage_pct, 3)
         ));
         let rows: Vec<Vec<String>> = self
@@ -529,7 +529,11 @@ impl StockSheet {
                 vec![
                     s.name.clone(),
                     format!("{:.1}", s.need_ml),
-                    format!("{} x {} mL", s.flask_count, s.flask_ml),
+                    s.flasks
+                        .iter()
+                        .map(|f| format!("{} x {} mL", f.count, f.ml))
+                        .collect::<Vec<_>>()
+                        .join(" + "),
                     s.recipe.kind.to_string(),
                     amount,
                 ]

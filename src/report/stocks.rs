@@ -31,6 +31,15 @@ pub struct StockSheet {
     pub cautions: Vec<String>,
 }
 
+/// Flasks of one size for a stock, and the amount (g or mL) each takes.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FlaskUse {
+    #[serde(rename = "mL")]
+    pub ml: f64,
+    pub count: u32,
+    pub amount: Option<f64>,
+}
+
 /// The lab's waste: spent mixtures, left-over stock, and the solutes in them.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct WasteReport {
@@ -135,9 +144,12 @@ pub struct StockPrep {
     pub need_ml: f64,
     #[serde(rename = "drawn_by_dilutions_mL")]
     pub drawn_ml: f64,
+    /// The largest flask (mL) and how many flasks in all; `flasks` lists them by size.
     #[serde(rename = "flask_mL")]
     pub flask_ml: f64,
     pub flask_count: u32,
+    pub flasks: Vec<FlaskUse>,
+    /// The recipe for the largest flask (`flasks` gives each size's amount).
     pub recipe: RecipeReport,
     pub hazard_codes: Vec<String>,
     pub hazards: Option<String>,
@@ -192,7 +204,9 @@ pub fn build_stocks(
         .iter()
         .map(|p| {
             let st = &lab.stocks[p.stock];
-            let flask = format!("{} mL volumetric flask", sig10(p.flask * 1e3));
+            let largest = p.flasks.largest();
+            let flask = format!("{} mL volumetric flask", sig10(largest * 1e3));
+            let amount = p.action.for_flask(largest);
             let (molar_mass, solute_concentration, purity, w, rho) = match &st.recipe {
                 Recipe::Weigh { concentration, molar_mass, purity, .. } => (Some(*molar_mass), Some(*concentration), Some(*purity), None, None),
                 Recipe::Measure { concentration, molar_mass, mass_fraction, density, .. } => {
@@ -202,38 +216,66 @@ pub fn build_stocks(
             };
             let solute = st.solute.clone().unwrap_or_default();
             let (kind, grams, volume, from, text) = match &p.action {
-                Action::Weigh { grams } => (
+                Action::Weigh { .. } => (
                     "weigh",
-                    Some(*grams),
+                    amount,
                     None,
                     None,
                     format!(
-                        "Weigh {grams:.4} g of {solute} ({:.2} g/mol{}) into a {flask}; dissolve in water and make up to the mark.",
+                        "Weigh {:.4} g of {solute} ({:.2} g/mol{}) into a {flask}; dissolve in water and make up to the mark.",
+                        amount.unwrap_or(0.0),
                         molar_mass.unwrap_or(0.0),
                         purity.filter(|p| *p < 1.0).map(|p| format!(", assay {} %", sig10(p * 100.0))).unwrap_or_default()
                     ),
                 ),
-                Action::Measure { ml } => (
+                Action::Measure { .. } => (
                     "measure",
                     None,
-                    Some(*ml),
+                    amount,
                     None,
                     format!(
-                        "Half fill a {flask} with water, add {ml:.2} mL of {solute} reagent ({} %, {} g/mL) — always reagent into water — and make up to the mark once cool.",
+                        "Half fill a {flask} with water, add {:.2} mL of {solute} reagent ({} %, {} g/mL) — always reagent into water — and make up to the mark once cool.",
+                        amount.unwrap_or(0.0),
                         sig10(w.unwrap_or(0.0) * 100.0),
                         rho.unwrap_or(0.0)
                     ),
                 ),
-                Action::Dilute { from, ml } => (
+                Action::Dilute { from, .. } => (
                     "dilute",
                     None,
-                    Some(*ml),
+                    amount,
                     Some(lab.stocks[*from].name.clone()),
-                    format!("Deliver {ml:.2} mL of '{}' into a {flask} and make up to the mark with water.", lab.stocks[*from].name),
+                    format!("Deliver {:.2} mL of '{}' into a {flask} and make up to the mark with water.", amount.unwrap_or(0.0), lab.stocks[*from].name),
                 ),
                 Action::AsUsual => ("as usual", None, None, None, format!("Make up in a {flask} as your method describes (no formula to compute from).")),
             };
-            let text = if p.flask_count > 1 { format!("{text} Make {} flasks.", p.flask_count) } else { text };
+            // Every flask of the set: the largest as above, the others with their own amount.
+            let unit = if matches!(p.action, Action::Weigh { .. }) { "g" } else { "mL" };
+            let mut text = text;
+            for (i, (f, n)) in p.flasks.0.iter().enumerate() {
+                let each = p.action.for_flask(*f);
+                match (i, each) {
+                    (0, _) if *n > 1 => text.push_str(&format!(" Make {n} such flasks.")),
+                    (0, _) => {}
+                    (_, Some(a)) => text.push_str(&format!(
+                        " Also make {n} x {} mL the same way, {} {unit} {}.",
+                        sig10(f * 1e3),
+                        if unit == "g" { format!("{a:.4}") } else { format!("{a:.2}") },
+                        if *n > 1 { "each" } else { "in it" }
+                    )),
+                    (_, None) => text.push_str(&format!(" Also make {n} x {} mL.", sig10(f * 1e3))),
+                }
+            }
+            let flasks: Vec<FlaskUse> = p
+                .flasks
+                .0
+                .iter()
+                .map(|(f, n)| FlaskUse {
+                    ml: ml(*f),
+                    count: *n,
+                    amount: p.action.for_flask(*f).map(sig10),
+                })
+                .collect();
             let species: Vec<&str> = st.contains.iter().map(|(s, _)| s.as_str()).collect();
             let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
             StockPrep {
@@ -245,8 +287,9 @@ pub fn build_stocks(
                 solute_concentration: solute_concentration.map(sig10),
                 need_ml: ml(p.need),
                 drawn_ml: ml(p.drawn),
-                flask_ml: ml(p.flask),
-                flask_count: p.flask_count,
+                flask_ml: ml(largest),
+                flask_count: p.flasks.count(),
+                flasks,
                 recipe: RecipeReport {
                     kind,
                     grams: grams.map(sig10),
@@ -286,7 +329,7 @@ pub fn build_stocks(
                     name,
                     factor: c.factor,
                     grams: sig10(c.grams),
-                    flask_ml: ml(c.flask),
+                    flask_ml: ml(c.flasks.smallest()),
                     aliquot_ml: ml(c.aliquot),
                 }
             });
@@ -301,7 +344,7 @@ pub fn build_stocks(
                 text.push_str(&format!(
                     " Make '{}' instead ({:.4} g in a {} mL flask) and deliver {} mL of it into each {} mL flask of '{}' (M1V1 = M2V2): paste its [[stock]] (below) above that of '{}' and give it dilute_from = \"{}\" in place of its solute and purity.",
                     c.name, c.grams, sig10(c.flask_ml), sig10(c.aliquot_ml),
-                    sig10(ml(preps.iter().find(|p| p.stock == m.stock).map_or(0.0, |p| p.flask))),
+                    sig10(ml(preps.iter().find(|p| p.stock == m.stock).map_or(0.0, |p| p.flasks.smallest()))),
                     st.name, st.name, c.name
                 ));
             }
