@@ -342,10 +342,10 @@ pub fn build_stocks(
             );
             if let Some(c) = &concentrate {
                 text.push_str(&format!(
-                    " Make '{}' instead ({:.4} g in a {} mL flask) and deliver {} mL of it into each {} mL flask of '{}' (M1V1 = M2V2): paste its [[stock]] (below) above that of '{}' and give it dilute_from = \"{}\" in place of its solute and purity.",
+                    " Make '{}' instead ({:.4} g in a {} mL flask) and deliver {} mL of it into each {} mL flask of '{}' (1/{} of the flask's volume, M1V1 = M2V2): paste its [[stock]] (below) above that of '{}' and give it dilute_from = \"{}\" in place of its solute and purity.",
                     c.name, c.grams, sig10(c.flask_ml), sig10(c.aliquot_ml),
                     sig10(ml(preps.iter().find(|p| p.stock == m.stock).map_or(0.0, |p| p.flasks.smallest()))),
-                    st.name, st.name, c.name
+                    st.name, sig10(c.factor), st.name, c.name
                 ));
             }
             if let Some((f, g)) = m.larger_flask {
