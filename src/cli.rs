@@ -67,6 +67,20 @@ pub enum Command {
         #[command(flatten)]
         write: WriteArgs,
     },
+    /// Print bottle labels for the stocks (HTML on an A4 3 x 8 or Letter 2 x 5 label sheet;
+    /// PDF through headless Chromium).
+    Labels {
+        /// The plan spec (TOML).
+        spec: PathBuf,
+        /// Paper size (and label grid).
+        #[arg(long, value_enum, default_value_t = PaperArg::A4)]
+        paper: PaperArg,
+        /// Also print the labels to this PDF (needs Chromium).
+        #[arg(long)]
+        pdf: Option<PathBuf>,
+        #[command(flatten)]
+        write: WriteArgs,
+    },
     /// Write the forecast chart (SVG): predicted times with their temperature band and the
     /// timing window.
     Chart {
@@ -320,6 +334,35 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
                 pdf_target.write(&bytes, &[&spec])?;
             }
             Ok(exit(report.flagged))
+        }
+        Command::Labels {
+            spec,
+            paper,
+            pdf,
+            write,
+        } => {
+            let target = write.target();
+            let pdf_target = Target {
+                path: pdf.clone(),
+                force: write.force,
+            };
+            target.guard(&[&spec])?;
+            pdf_target.guard(&[&spec])?;
+            let sheet = crate::stocks(read_spec(&spec)?)?;
+            let paper = match paper {
+                PaperArg::A4 => Paper::A4,
+                PaperArg::Letter => Paper::Letter,
+            };
+            let html = crate::export::labels::labels(&sheet, paper);
+            if target.path.is_some() || pdf.is_none() {
+                target.write(&html, &[&spec])?;
+            }
+            if pdf.is_some() {
+                let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
+                let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
+                pdf_target.write(&bytes, &[&spec])?;
+            }
+            Ok(EXIT_OK)
         }
         Command::Chart { spec, write } => guarded(&write, &[&spec], || {
             let (svg, flagged) = crate::chart(read_spec(&spec)?)?;

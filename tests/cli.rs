@@ -945,3 +945,40 @@ fn a_spec_read_from_standard_input_as_dash() {
             "cannot both be read from standard input",
         ));
 }
+
+#[test]
+fn labels_one_per_flask_with_signal_word_and_sds_on_both_papers() {
+    // The bromate demo makes 13 flasks (each stock's flask count on the stocks sheet); every one
+    // gets a label, KBrO3's saying Danger with H350, each with the SDS line.
+    let stocks: serde_json::Value = serde_json::from_slice(
+        &clockprep()
+            .args(["stocks", "plans/maple-hollow-bromate.toml", "-f", "json"])
+            .output()
+            .unwrap()
+            .stdout,
+    )
+    .unwrap();
+    let flasks: u64 = stocks["stocks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["flask_count"].as_u64().unwrap())
+        .sum();
+    for paper in ["a4", "letter"] {
+        let out = clockprep()
+            .args([
+                "labels",
+                "plans/maple-hollow-bromate.toml",
+                "--paper",
+                paper,
+            ])
+            .output()
+            .unwrap();
+        assert_eq!(out.status.code(), Some(0));
+        let html = String::from_utf8(out.stdout).unwrap();
+        assert_eq!(html.matches("<div class=\"label\">").count() as u64, flasks);
+        assert_eq!(html.matches("See the SDS").count() as u64, flasks);
+        assert!(html.contains("<span class=\"signal\">Danger</span>: H271, H301, H350"));
+        assert!(html.contains("on the day made"));
+    }
+}

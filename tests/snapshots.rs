@@ -112,6 +112,17 @@ fn peroxide_two_term_fit() {
 }
 
 #[test]
+fn bromate_labels() {
+    let sheet = clockprep::stocks(source("plans/maple-hollow-bromate.toml")).unwrap();
+    let html = String::from_utf8(clockprep::export::labels::labels(
+        &sheet,
+        clockprep::export::cards::Paper::A4,
+    ))
+    .unwrap();
+    insta::assert_snapshot!("bromate_labels_a4", html);
+}
+
+#[test]
 fn bromate_design() {
     let sheet = clockprep::design(source("plans/maple-hollow-bromate.toml")).unwrap();
     for (format, ext) in SUMMARY_FORMATS {

@@ -283,6 +283,17 @@ impl Exporter for Csv {
             ])
             .expect("writing to memory cannot fail");
         }
+        // The fetch list: `recipe` = `fetch`, the item in `stock`, its total in grams or mL.
+        for f in &sheet.fetch {
+            let mut row = vec![String::new(); 12];
+            row[0] = f.item.clone();
+            row[6] = "fetch".into();
+            row[7] = opt(f.grams);
+            row[8] = opt(f.ml);
+            row[10] = f.hazard_codes.join(" ");
+            row[11] = format!("for {}", f.for_stocks.join(", "));
+            w.write_record(row).expect("writing to memory cannot fail");
+        }
         // The sheet's advice (standardize, masses too small for the balance) as rows of their
         // own, the sentence in `instruction`.
         for a in &sheet.advice {

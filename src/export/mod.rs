@@ -8,6 +8,7 @@ pub mod chart;
 mod csv;
 mod html;
 mod json;
+pub mod labels;
 mod markdown;
 pub mod pdf;
 mod text;

@@ -23,7 +23,27 @@ pub struct Reagent {
     pub ghs: Vec<String>,
     pub plain: String,
     pub stability: String,
+    /// Days a made-up stock is used for: 0 on the day it is made.
+    pub keeps_days: u32,
     pub source: String,
+}
+
+/// GHS hazard statements whose pictogram comes with the signal word "Danger" (the others here
+/// take "Warning"), from memory of the GHS classification tables.
+const DANGER: [&str; 22] = [
+    "H200", "H201", "H202", "H203", "H220", "H224", "H225", "H240", "H241", "H250", "H260", "H270",
+    "H271", "H300", "H301", "H310", "H314", "H318", "H330", "H334", "H340", "H350",
+];
+
+/// The GHS signal word for a set of hazard statements: "Danger", "Warning", or none.
+pub fn signal_word(codes: &[String]) -> Option<&'static str> {
+    if codes.iter().any(|c| DANGER.contains(&c.as_str())) {
+        Some("Danger")
+    } else if codes.is_empty() {
+        None
+    } else {
+        Some("Warning")
+    }
 }
 
 #[derive(Debug, Clone, Deserialize)]

@@ -602,9 +602,77 @@ impl StockSheet {
             }
             sections.push(sec);
         }
+        sections.push(self.checklist_section());
+        sections.push(self.fetch_section());
         sections.push(self.waste_section());
         sections.push(cautions(&self.cautions));
         Page { title, sections }
+    }
+
+    /// A line per stock to tick, with the date made, initials and use-by to fill in.
+    fn checklist_section(&self) -> Section {
+        let mut sec = Section::new("Make-up checklist");
+        let rows = self
+            .checklist
+            .iter()
+            .map(|c| {
+                vec![
+                    "[ ]".to_string(),
+                    c.stock.clone(),
+                    c.flasks.clone(),
+                    c.with.clone(),
+                    "__________".into(),
+                    "______".into(),
+                    c.use_by.clone(),
+                ]
+            })
+            .collect();
+        sec.push(Block::Table(Table::with_align(
+            headers(&[
+                "done",
+                "stock",
+                "flasks",
+                "with",
+                "date made",
+                "initials",
+                "use by",
+            ]),
+            vec![Align::Left; 7],
+            rows,
+        )));
+        sec.para("Label every bottle with its name, concentration, the date made, the use-by date and its hazards (clockprep labels prints them); follow the recipe of each stock above.");
+        sec
+    }
+
+    /// The solids and reagents to fetch, with their totals.
+    fn fetch_section(&self) -> Section {
+        let mut sec = Section::new("Fetch from the store");
+        let rows = self
+            .fetch
+            .iter()
+            .map(|f| {
+                vec![
+                    f.item.clone(),
+                    match (f.grams, f.ml) {
+                        (Some(g), _) => format!("{g:.2} g"),
+                        (None, Some(v)) => format!("{v:.1} mL"),
+                        _ => "as your method".into(),
+                    },
+                    f.for_stocks.join(", "),
+                    match (f.signal_word, f.hazard_codes.is_empty()) {
+                        (Some(w), false) => format!("{w}: {}", f.hazard_codes.join(", ")),
+                        _ => "-".into(),
+                    },
+                ]
+            })
+            .collect();
+        sec.push(Block::Table(Table::with_align(
+            headers(&["solid or reagent", "total", "for", "hazards"]),
+            vec![Align::Left, Align::Right, Align::Left, Align::Left],
+            rows,
+        )));
+        sec.para("Totals are what the recipes take (assay included), before any spill: fetch a little more, and check each container's label and SDS.");
+        sec
     }
 
     /// The waste figures: spent mixtures, left-over stock, the solutes in them.

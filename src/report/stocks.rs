@@ -28,7 +28,39 @@ pub struct StockSheet {
     pub small_masses: Vec<SmallMassReport>,
     /// What the lab leaves for the waste bottle.
     pub waste: WasteReport,
+    /// One line per stock to make, to tick off with the date and initials.
+    pub checklist: Vec<CheckItem>,
+    /// What to fetch from the store: each solid or reagent with its total.
+    pub fetch: Vec<FetchItem>,
     pub cautions: Vec<String>,
+}
+
+/// A stock to make, on the checklist.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CheckItem {
+    pub stock: String,
+    /// The flasks, e.g. "1 x 1000 mL + 1 x 250 mL".
+    pub flasks: String,
+    /// What to weigh, measure or dilute with.
+    pub with: String,
+    /// How long it is used for: 0 on the day it is made; null when the data has no entry.
+    pub keeps_days: Option<u32>,
+    /// The expiry in words ("on the day made", "7 days after making").
+    pub use_by: String,
+}
+
+/// A solid or reagent to fetch from the store.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FetchItem {
+    /// Its formula (or the stock's name when it has none, e.g. an indicator).
+    pub item: String,
+    /// Total to weigh out, g, or to measure, mL (null for an indicator made as usual).
+    pub grams: Option<f64>,
+    #[serde(rename = "mL")]
+    pub ml: Option<f64>,
+    pub for_stocks: Vec<String>,
+    pub hazard_codes: Vec<String>,
+    pub signal_word: Option<&'static str>,
 }
 
 /// Flasks of one size for a stock, and the amount (g or mL) each takes.
@@ -400,6 +432,72 @@ pub fn build_stocks(
             })
             .collect(),
     };
+    let mut checklist = Vec::new();
+    let mut fetch: Vec<FetchItem> = Vec::new();
+    for p in preps {
+        let st = &lab.stocks[p.stock];
+        let species: Vec<&str> = st.contains.iter().map(|(x, _)| x.as_str()).collect();
+        let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
+        let keeps_days = reagent.map(|r| r.keeps_days);
+        let use_by = match keeps_days {
+            Some(0) => "on the day made".to_string(),
+            Some(d) => format!("{d} days after making"),
+            None => "as your method says".to_string(),
+        };
+        let with = match &p.action {
+            Action::Weigh { .. } => format!("balance reading to {} g", sig10(lab.balance)),
+            Action::Measure { .. } => {
+                "graduated cylinder or measuring pipet, in a fume cupboard; reagent into water"
+                    .into()
+            }
+            Action::Dilute { .. } => "volumetric pipet or buret for the aliquot".into(),
+            Action::AsUsual => "as your method describes".into(),
+        };
+        checklist.push(CheckItem {
+            stock: st.name.clone(),
+            flasks: p.flasks.label(),
+            with,
+            keeps_days,
+            use_by,
+        });
+        let (item, grams, volume) = match &p.action {
+            Action::Weigh { grams_per_l } => (
+                st.solute.clone().unwrap_or_default(),
+                Some(grams_per_l * p.flasks.total()),
+                None,
+            ),
+            Action::Measure { ml_per_l } => (
+                format!("{} reagent", st.solute.clone().unwrap_or_default()),
+                None,
+                Some(ml_per_l * p.flasks.total()),
+            ),
+            Action::Dilute { .. } => continue,
+            Action::AsUsual => (st.name.clone(), None, None),
+        };
+        let codes = reagent.map(|r| r.ghs.clone()).unwrap_or_default();
+        match fetch
+            .iter_mut()
+            .find(|f| f.item == item && f.ml.is_some() == volume.is_some())
+        {
+            Some(f) => {
+                f.grams = f.grams.zip(grams).map(|(a, b)| a + b).or(f.grams);
+                f.ml = f.ml.zip(volume).map(|(a, b)| a + b).or(f.ml);
+                f.for_stocks.push(st.name.clone());
+            }
+            None => fetch.push(FetchItem {
+                item,
+                grams,
+                ml: volume,
+                for_stocks: vec![st.name.clone()],
+                signal_word: crate::reference::reagents::signal_word(&codes),
+                hazard_codes: codes,
+            }),
+        }
+    }
+    for f in &mut fetch {
+        f.grams = f.grams.map(sig10);
+        f.ml = f.ml.map(sig10);
+    }
     StockSheet {
         format: STOCKS_FORMAT,
         title: spec.title.clone(),
@@ -413,6 +511,8 @@ pub fn build_stocks(
         balance_stated: lab.balance_stated,
         small_masses,
         waste,
+        checklist,
+        fetch,
         cautions: reagents::cautions(used),
     }
 }
