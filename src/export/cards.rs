@@ -40,21 +40,15 @@ impl Paper {
 }
 
 /// Most runs on one station card; a station with more gets several cards.
-pub const RUNS_PER_STATION_CARD: usize = 6;
+pub const RUNS_PER_STATION_CARD: usize = 3;
 /// Page margin and the gap between two cards on a page, mm.
 const MARGIN: f64 = 10.0;
 const GAP: f64 = 6.0;
 
-/// Most replicates whose record rows fit a half-page run card; with more, each run card
-/// takes a whole page.
-pub const REPLICATES_ON_HALF_PAGE: u32 = 4;
-
-/// Cards on one page.
-fn per_page(report: &PlanReport, per: Per) -> usize {
-    match per {
-        Per::Run if report.replicates <= REPLICATES_ON_HALF_PAGE => 2,
-        _ => 1,
-    }
+/// Cards on one page: one, so that the text stays at a size read at arm's length (11 pt body,
+/// 9 pt cautions) without crowding.
+fn per_page(_report: &PlanReport, _per: Per) -> usize {
+    1
 }
 
 /// Pages the cards take: known from the layout alone.
@@ -81,16 +75,16 @@ fn style(paper: Paper, per_page: usize) -> String {
         r#"
 @page {{ size: {size}; margin: {MARGIN}mm; }}
 * {{ box-sizing: border-box; }}
-body {{ margin: 0; font-family: "DejaVu Sans", Arial, sans-serif; font-size: 8.3pt; color: #000; }}
+body {{ margin: 0; font-family: "DejaVu Sans", Arial, sans-serif; font-size: 11pt; color: #000; }}
 .page {{ width: {inner_w:.1}mm; height: {inner_h:.1}mm; break-after: page; page-break-after: always; overflow: hidden; }}
 .page:last-child {{ break-after: auto; page-break-after: auto; }}
 .card {{ width: 100%; height: {card_h:.1}mm; border: 1.3pt solid #000; padding: 2.5mm 3.5mm; overflow: hidden;
          break-inside: avoid; page-break-inside: avoid; display: flex; flex-direction: column; }}
 .card + .card {{ margin-top: {GAP}mm; }}
 .head {{ display: flex; justify-content: space-between; align-items: baseline; border-bottom: 0.8pt solid #000; margin-bottom: 1.5mm; }}
-.head .run {{ font-size: 12pt; font-weight: bold; }}
-.head .plan {{ font-size: 7.5pt; }}
-.station {{ font-size: 10.5pt; font-weight: bold; white-space: nowrap; }}
+.head .run {{ font-size: 14pt; font-weight: bold; }}
+.head .plan {{ font-size: 9pt; }}
+.station {{ font-size: 12pt; font-weight: bold; white-space: nowrap; }}
 .vessels {{ display: flex; gap: 3mm; }}
 .vessels > div {{ flex: 1; }}
 table {{ border-collapse: collapse; width: 100%; }}
@@ -100,8 +94,8 @@ td.n {{ text-align: right; white-space: nowrap; }}
 .forecast {{ margin: 0.5mm 0 1mm 0; }}
 .flag {{ font-weight: bold; margin: 0.5mm 0; }}
 .record td {{ height: 6.5mm; }}
-.cautions {{ margin-top: auto; border: 1pt solid #000; padding: 1mm 2mm; font-size: 7pt; }}
-.end {{ font-size: 6pt; text-align: right; color: #444; }}
+.cautions {{ margin-top: auto; border: 1pt solid #000; padding: 1mm 2mm; font-size: 9pt; }}
+.end {{ font-size: 9pt; text-align: right; color: #444; }}
 "#,
         size = paper.css()
     )
@@ -113,7 +107,7 @@ fn vessel_table(label: &str, items: &[crate::report::PortionItem], dec: usize) -
             table {
                 tr { th colspan="3" { "Vessel " (label) } }
                 @for i in items {
-                    tr { td { (i.stock) } td.n { (format!("{:.dec$} mL", i.ml)) } td { (i.device) } }
+                    tr { td { (i.stock) } td.n { strong { (format!("{:.dec$} mL", i.ml)) } } td { (i.device) } }
                 }
             }
         }
@@ -134,13 +128,45 @@ fn cautions(report: &PlanReport) -> Markup {
     }
 }
 
-/// The run's forecast in the sheets' own words: the predicted time with its band, then the
-/// clock and the initial-rate estimate.
+/// A time as a stopwatch reader takes it: whole seconds from 10 s (a human's reaction is about
+/// 0.2 s), tenths below (common practice).
+fn stopwatch(t: f64) -> String {
+    if t >= 10.0 {
+        format!("{t:.0} s")
+    } else {
+        format!("{t:.1} s")
+    }
+}
+
+/// Two significant figures: the band is an estimate of an estimate.
+fn two_figures(t: f64) -> String {
+    if !(t.is_finite() && t > 0.0) {
+        return "-".into();
+    }
+    let step = 10f64.powf(t.log10().floor() - 1.0);
+    let v = (t / step).round() * step;
+    if step >= 1.0 {
+        format!("{v:.0}")
+    } else {
+        format!("{:.*}", (-step.log10()).round() as usize, v)
+    }
+}
+
+/// The run's forecast for the bench: the expected time as a stopwatch reads it, the band over
+/// the temperature range to two significant figures, and that it is a forecast.
 fn forecast_line(run: &RunReport) -> Markup {
     html! {
         @if let Some(f) = &run.forecast {
             div.forecast {
-                @for line in crate::report::words::forecast_lines(f).iter().take(2) { div { (line) } }
+                @match (f.time_s, f.band_s) {
+                    (Some(t), Some([fast, slow])) => {
+                        "Expected: about " strong { (stopwatch(t)) } " at " (format!("{:.0}", f.temperature_c)) " °C ("
+                        (two_figures(fast)) "–" (two_figures(slow)) " s between " (format!("{:.0}", f.band_c[1])) " and "
+                        (format!("{:.0}", f.band_c[0])) " °C). A forecast, not a guarantee."
+                    }
+                    (Some(t), None) => { "Expected: about " strong { (stopwatch(t)) } ". A forecast, not a guarantee." }
+                    _ => { "No clock forecast for this run: see the sheet." }
+                }
             }
         }
     }
@@ -251,7 +277,7 @@ fn station_card(
     dec: usize,
 ) -> Markup {
     let items = |list: &[crate::report::PortionItem]| -> Markup {
-        html! { @for i in list { div { (i.stock) " " (format!("{:.dec$} mL", i.ml)) " (" (i.device) ")" } } }
+        html! { @for i in list { div { (i.stock) ": " strong { (format!("{:.dec$} mL", i.ml)) } " (" (i.device) ")" } } }
     };
     html! {
         div.card {
@@ -263,7 +289,7 @@ fn station_card(
                 div.station { "Station " (station) " of " (report.stations) }
             }
             table {
-                tr { th { "run" } th { "vessel A" } th { "vessel B" } th { "expected" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } } th { "°C" } }
+                tr { th { "run" } th { "vessel A" } th { "vessel B" } th { "expected" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } th { "°C" } } }
                 @for (n, run) in runs {
                     tr.record {
                         td {
@@ -275,12 +301,11 @@ fn station_card(
                         td.n {
                             @if let Some(f) = &run.forecast {
                                 @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
-                                    (format!("{t:.0} s")) br; (format!("({fast:.0}–{slow:.0})"))
+                                    strong { (stopwatch(t)) } br; "(" (two_figures(fast)) "–" (two_figures(slow)) ")"
                                 } @else { "-" }
                             } @else { "-" }
                         }
-                        @for _ in 1..=report.replicates { td {} }
-                        td {}
+                        @for _ in 1..=report.replicates { td {} td {} }
                     }
                 }
             }
@@ -350,4 +375,19 @@ pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
         super::typeset::document(&doc.into_string(), super::typeset::Style::Html).into_bytes();
     out.push(b'\n');
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn stopwatch_times_and_two_figure_bands() {
+        assert_eq!(stopwatch(117.94), "118 s");
+        assert_eq!(stopwatch(8.26), "8.3 s");
+        assert_eq!(two_figures(165.74), "170");
+        assert_eq!(two_figures(86.77), "87");
+        assert_eq!(two_figures(4.37), "4.4");
+        assert_eq!(two_figures(1234.0), "1200");
+    }
 }
