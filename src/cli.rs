@@ -64,6 +64,9 @@ pub enum Command {
         /// --output.
         #[arg(long)]
         pdf: Option<PathBuf>,
+        /// Print the whole set of cards this many times (1 to 50).
+        #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u32).range(1..=50))]
+        copies: u32,
         #[command(flatten)]
         write: WriteArgs,
     },
@@ -305,6 +308,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             per,
             paper,
             pdf,
+            copies,
             write,
         } => {
             let target = write.target();
@@ -324,7 +328,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
                 PaperArg::A4 => Paper::A4,
                 PaperArg::Letter => Paper::Letter,
             };
-            let html = cards::cards(&report, per, paper);
+            let html = cards::cards_copies(&report, per, paper, copies as usize);
             if target.path.is_some() || pdf.is_none() {
                 target.write(&html, &[&spec])?;
             }

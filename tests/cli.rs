@@ -982,3 +982,32 @@ fn labels_one_per_flask_with_signal_word_and_sds_on_both_papers() {
         assert!(html.contains("on the day made"));
     }
 }
+
+#[test]
+fn cards_copies_print_the_whole_set_that_many_times() {
+    let count = |copies: &str| {
+        let out = clockprep()
+            .args([
+                "cards",
+                "plans/maple-hollow-bromate.toml",
+                "--per",
+                "run",
+                "--copies",
+                copies,
+            ])
+            .output()
+            .unwrap();
+        assert_eq!(out.status.code(), Some(0));
+        let html = String::from_utf8(out.stdout).unwrap();
+        (
+            html.matches("<div class=\"page\">").count(),
+            html.matches("safety officer").count(),
+        )
+    };
+    let (pages, cautions) = count("1");
+    assert_eq!(count("3"), (3 * pages, 3 * cautions));
+    clockprep()
+        .args(["cards", "plans/maple-hollow-bromate.toml", "--copies", "0"])
+        .assert()
+        .code(2);
+}

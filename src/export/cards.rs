@@ -324,6 +324,12 @@ fn station_card(
 
 /// The bench cards as one printable HTML document.
 pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
+    cards_copies(report, per, paper, 1)
+}
+
+/// The bench cards, the whole set printed `copies` times (e.g. a set per bench of a shared
+/// station, or spares).
+pub fn cards_copies(report: &PlanReport, per: Per, paper: Paper, copies: usize) -> Vec<u8> {
     let dec = crate::report::words::ml_decimals(report);
     let numbered: Vec<(usize, &RunReport)> = report
         .runs
@@ -355,6 +361,8 @@ pub fn cards(report: &PlanReport, per: Per, paper: Paper) -> Vec<u8> {
             }
         }
     }
+    let copies = copies.max(1);
+    let cards: Vec<Markup> = (0..copies).flat_map(|_| cards.iter().cloned()).collect();
     let per_page = per_page(report, per);
     let doc = html! {
         (DOCTYPE)
