@@ -204,6 +204,15 @@ pub enum PaperArg {
     Letter,
 }
 
+impl From<PaperArg> for Paper {
+    fn from(p: PaperArg) -> Paper {
+        match p {
+            PaperArg::A4 => Paper::A4,
+            PaperArg::Letter => Paper::Letter,
+        }
+    }
+}
+
 #[derive(ValueEnum, Clone, Copy, Debug)]
 pub enum FormatArg {
     Text,
@@ -261,6 +270,33 @@ fn guarded(
     Ok(exit(flagged))
 }
 
+/// A printable HTML document: to stdout or `-o`, and with `--pdf` also through headless
+/// Chromium (the HTML then goes only to `-o`). Both outputs are guarded before any work.
+fn printed(
+    write: &WriteArgs,
+    pdf: Option<PathBuf>,
+    spec: &Path,
+    build: impl FnOnce() -> Result<(Vec<u8>, bool), Error>,
+) -> Result<i32, Error> {
+    let target = write.target();
+    let pdf_target = Target {
+        path: pdf,
+        force: write.force,
+    };
+    target.guard(&[spec])?;
+    pdf_target.guard(&[spec])?;
+    let (html, flagged) = build()?;
+    if target.path.is_some() || pdf_target.path.is_none() {
+        target.write(&html, &[spec])?;
+    }
+    if pdf_target.path.is_some() {
+        let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
+        let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
+        pdf_target.write(&bytes, &[spec])?;
+    }
+    Ok(exit(flagged))
+}
+
 fn exit(flagged: bool) -> i32 {
     if flagged {
         EXIT_FLAGGED
@@ -310,64 +346,24 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             pdf,
             copies,
             write,
-        } => {
-            let target = write.target();
-            let pdf_target = Target {
-                path: pdf.clone(),
-                force: write.force,
-            };
-            // Refuse before writing anything if an output would be refused.
-            target.guard(&[&spec])?;
-            pdf_target.guard(&[&spec])?;
+        } => printed(&write, pdf, &spec, || {
             let report = crate::plan(read_spec(&spec)?)?;
             let per = match per {
                 PerArg::Station => Per::Station,
                 PerArg::Run => Per::Run,
             };
-            let paper = match paper {
-                PaperArg::A4 => Paper::A4,
-                PaperArg::Letter => Paper::Letter,
-            };
-            let html = cards::cards_copies(&report, per, paper, copies as usize);
-            if target.path.is_some() || pdf.is_none() {
-                target.write(&html, &[&spec])?;
-            }
-            if pdf.is_some() {
-                let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
-                let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
-                pdf_target.write(&bytes, &[&spec])?;
-            }
-            Ok(exit(report.flagged))
-        }
+            let html = cards::cards_copies(&report, per, paper.into(), copies as usize);
+            Ok((html, report.flagged))
+        }),
         Command::Labels {
             spec,
             paper,
             pdf,
             write,
-        } => {
-            let target = write.target();
-            let pdf_target = Target {
-                path: pdf.clone(),
-                force: write.force,
-            };
-            target.guard(&[&spec])?;
-            pdf_target.guard(&[&spec])?;
+        } => printed(&write, pdf, &spec, || {
             let sheet = crate::stocks(read_spec(&spec)?)?;
-            let paper = match paper {
-                PaperArg::A4 => Paper::A4,
-                PaperArg::Letter => Paper::Letter,
-            };
-            let html = crate::export::labels::labels(&sheet, paper);
-            if target.path.is_some() || pdf.is_none() {
-                target.write(&html, &[&spec])?;
-            }
-            if pdf.is_some() {
-                let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
-                let bytes = crate::export::pdf::html_to_pdf(&html, &browser)?;
-                pdf_target.write(&bytes, &[&spec])?;
-            }
-            Ok(EXIT_OK)
-        }
+            Ok((crate::export::labels::labels(&sheet, paper.into()), false))
+        }),
         Command::Chart { spec, write } => guarded(&write, &[&spec], || {
             let (svg, flagged) = crate::chart(read_spec(&spec)?)?;
             Ok((svg.into_bytes(), flagged))
