@@ -22,8 +22,22 @@ fn synthetic(
     sigma: f64,
     rng: &mut Rng,
 ) -> Vec<Trial> {
+    synthetic_terms(spec, initial, &[k_factor], reps, sigma, rng)
+}
+
+/// The same with each term's k scaled by its own factor.
+fn synthetic_terms(
+    spec: &clockprep::spec::Spec,
+    initial: &[Vec<(String, f64)>],
+    factors: &[f64],
+    reps: usize,
+    sigma: f64,
+    rng: &mut Rng,
+) -> Vec<Trial> {
     let mut truth = spec.prior.as_ref().unwrap().reaction.clone();
-    truth.terms[0].k_ref *= k_factor;
+    for (term, f) in truth.terms.iter_mut().zip(factors) {
+        term.k_ref *= f;
+    }
     let t = spec.prior.as_ref().unwrap().settings.temperature;
     let mut trials = Vec::new();
     for (run, c0) in initial.iter().enumerate() {
@@ -184,39 +198,6 @@ fn two_temperatures_give_the_activation_energy() {
 
 const PEROXIDE_DEMO: &str = "plans/willow-creek-peroxide-forecast.toml";
 
-/// Times of the two-term peroxide demo from its prior with each term's k scaled, `reps` per
-/// run with relative noise `sigma`.
-fn two_term_synthetic(
-    spec: &clockprep::spec::Spec,
-    initial: &[Vec<(String, f64)>],
-    factors: [f64; 2],
-    reps: usize,
-    sigma: f64,
-    rng: &mut Rng,
-) -> Vec<Trial> {
-    let mut truth = spec.prior.as_ref().unwrap().reaction.clone();
-    for (term, f) in truth.terms.iter_mut().zip(factors) {
-        term.k_ref *= f;
-    }
-    let t = spec.prior.as_ref().unwrap().settings.temperature;
-    let mut trials = Vec::new();
-    for (run, c0) in initial.iter().enumerate() {
-        let time = RunKinetics::new(&truth, c0, spec.timing.concentration)
-            .unwrap()
-            .at(t)
-            .to_colour();
-        for _ in 0..reps {
-            trials.push(Trial {
-                run,
-                time: time * (sigma * rng.normal()).exp(),
-                temperature: None,
-                line: 0,
-            });
-        }
-    }
-    trials
-}
-
 fn peroxide() -> (clockprep::spec::Spec, Vec<Vec<(String, f64)>>) {
     clockprep::initial_concentrations(SpecSource::new(
         PEROXIDE_DEMO,
@@ -231,7 +212,7 @@ fn two_term_fit_gives_back_each_terms_k_from_exact_times() {
     use clockprep::kinetics::fit_terms::fit_terms;
     let (spec, initial) = peroxide();
     let prior = spec.prior.as_ref().unwrap();
-    let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 2, 0.0, &mut Rng(3));
+    let trials = synthetic_terms(&spec, &initial, &[1.3, 0.6], 2, 0.0, &mut Rng(3));
     let f = fit_terms(&spec, prior, &initial, &trials).unwrap();
     let t = prior.settings.temperature;
     for (fitted, (term, factor)) in f
@@ -267,7 +248,7 @@ fn two_term_standard_errors_match_the_spread_of_repeated_pilots() {
     let mut covered = [0usize; 2];
     let mut profile = Vec::new();
     for _ in 0..pilots {
-        let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 3, 0.02, &mut rng);
+        let trials = synthetic_terms(&spec, &initial, &[1.3, 0.6], 3, 0.02, &mut rng);
         let f = fit_terms(&spec, prior, &initial, &trials).unwrap();
         for m in 0..2 {
             let v = f.terms[m].k.value.ln();
@@ -307,7 +288,7 @@ fn two_term_fit_warns_when_the_runs_barely_separate_the_terms() {
             *c = 0.104;
         }
     }
-    let trials = two_term_synthetic(&spec, &initial, [1.3, 0.6], 3, 0.02, &mut Rng(11));
+    let trials = synthetic_terms(&spec, &initial, &[1.3, 0.6], 3, 0.02, &mut Rng(11));
     let f = fit_terms(&spec, &prior, &initial, &trials).unwrap();
     assert!(
         f.warnings.iter().any(|w| w.contains("barely separate")),
