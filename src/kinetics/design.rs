@@ -574,22 +574,14 @@ pub fn assess(
 mod tests {
     use super::*;
 
+    /// A base point of three species and each doubled in turn.
+    fn ofat_runs() -> Vec<DesignedRun> {
+        let runs = ofat_runs();
+        runs
+    }
+
     fn ofat(r: u32, sigma: f64) -> Vec<Option<f64>> {
-        let base = [("A", 0.01), ("B", 0.02), ("C", 0.05)];
-        let mut runs = vec![DesignedRun {
-            name: "base".into(),
-            targets: base.iter().map(|(s, c)| (s.to_string(), *c)).collect(),
-        }];
-        for j in 0..3 {
-            runs.push(DesignedRun {
-                name: format!("x2 {j}"),
-                targets: base
-                    .iter()
-                    .enumerate()
-                    .map(|(i, (s, c))| (s.to_string(), if i == j { 2.0 * c } else { *c }))
-                    .collect(),
-            });
-        }
+        let runs = ofat_runs();
         let species: Vec<String> = ["A", "B", "C"].iter().map(|s| s.to_string()).collect();
         standard_errors(&runs, &[sigma; 4], &species, r).0
     }
@@ -621,21 +613,7 @@ mod tests {
         // orders: trial part alone, 0.03 √(2/2)/ln 2; ln k with orders fixed (the mean of 8
         // trials): per station √(0.02² + 0.01² + 0.03²/8), pooled over 8 stations
         // √(0.02² + (0.01² + 0.03²/8)/8), floor 0.02.
-        let base = [("A", 0.01), ("B", 0.02), ("C", 0.05)];
-        let mut runs = vec![DesignedRun {
-            name: "base".into(),
-            targets: base.iter().map(|(s, c)| (s.to_string(), *c)).collect(),
-        }];
-        for j in 0..3 {
-            runs.push(DesignedRun {
-                name: format!("x2 {j}"),
-                targets: base
-                    .iter()
-                    .enumerate()
-                    .map(|(i, (s, c))| (s.to_string(), if i == j { 2.0 * c } else { *c }))
-                    .collect(),
-            });
-        }
+        let runs = ofat_runs();
         let errors = vec![
             RunErrors {
                 lab: vec![("stock".into(), 0.02)],
