@@ -262,6 +262,16 @@ fn reaction_toml(prior: &Prior, fit: &Fit, unit: &str, times_name: &str) -> Stri
     s
 }
 
+/// A fit's page: its summary, the updated prior to paste, and the cautions.
+pub(super) fn fit_page(summary: Section, reaction_toml: &str) -> Page {
+    let mut prior = Section::new("Updated prior (paste over [reaction])");
+    prior.push(Block::Verbatim(reaction_toml.to_string()));
+    Page {
+        title: summary.heading.clone().unwrap_or_default(),
+        sections: vec![summary, prior, super::page::general_cautions()],
+    }
+}
+
 /// The residual table of a fit: times in ms when every trial is under a second, else in s.
 pub(super) fn residual_table(residuals: &[FitResidual]) -> Block {
     let (scale, unit) = if residuals.iter().all(|r| r.measured_s < 1.0) {
@@ -435,12 +445,6 @@ impl FitSheet {
     }
 
     pub fn page(&self) -> Page {
-        let summary = self.summary();
-        let mut prior = Section::new("Updated prior (paste over [reaction])");
-        prior.push(Block::Verbatim(self.reaction_toml.clone()));
-        Page {
-            title: summary.heading.clone().unwrap_or_default(),
-            sections: vec![summary, prior, super::page::general_cautions()],
-        }
+        fit_page(self.summary(), &self.reaction_toml)
     }
 }

@@ -3,7 +3,7 @@
 //! term's fitted k is part of the report, so every format carries it.
 
 use super::fit::{
-    k_unit_for, q, reaction_header, residual_rows, residual_table, FitResidual, Interval,
+    fit_page, k_unit_for, q, reaction_header, residual_rows, residual_table, FitResidual, Interval,
 };
 use super::page::{Align, Block, Page, Section, Table};
 use crate::kinetics::fit_terms::{term_label, TermsFit, PROFILE_RANGE};
@@ -213,12 +213,6 @@ impl TermsFitSheet {
     }
 
     pub fn page(&self) -> Page {
-        let summary = self.summary();
-        let mut prior = Section::new("Updated prior (paste over [reaction])");
-        prior.push(Block::Verbatim(self.reaction_toml.clone()));
-        Page {
-            title: summary.heading.clone().unwrap_or_default(),
-            sections: vec![summary, prior, super::page::general_cautions()],
-        }
+        fit_page(self.summary(), &self.reaction_toml)
     }
 }
