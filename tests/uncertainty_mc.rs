@@ -16,6 +16,32 @@ fn sd(x: &[f64]) -> f64 {
     (x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
 }
 
+/// The final concentrations of a run mixed with these delivered `volumes` (one per addition)
+/// from stocks whose concentrations are off by `stock_factor`: Σ c·V / Σ V per species.
+fn mixed(
+    lab: &clockprep::spec::Lab,
+    run: &clockprep::solve::RunSolution,
+    volumes: &[f64],
+    stock_factor: &[f64],
+) -> Vec<(String, f64)> {
+    let total: f64 = volumes.iter().sum();
+    run.concentrations
+        .iter()
+        .map(|(sp, _)| {
+            let amount: f64 = run
+                .additions
+                .iter()
+                .zip(volumes)
+                .filter_map(|(a, v)| {
+                    a.stock
+                        .map(|s| lab.stocks[s].concentration_of(sp) * stock_factor[s] * v)
+                })
+                .sum();
+            (sp.clone(), amount / total)
+        })
+        .collect()
+}
+
 #[test]
 fn first_order_agrees_with_monte_carlo() {
     let path = "plans/maple-hollow-bromate.toml";
@@ -42,33 +68,26 @@ fn first_order_agrees_with_monte_carlo() {
             .iter()
             .map(|s| 1.0 + s.uncertainty * rng.normal())
             .collect();
-        let mut total = 0.0;
-        let mut amount = vec![0.0; species.len()];
-        for a in &run.additions {
-            let mut v = a.volume;
-            for &(d, fills) in &a.delivery.parts {
-                let t = tolerance(&lab.devices[d]);
-                let draws = if lab.devices[d].is_volumetric() {
-                    fills
-                } else {
-                    1
-                };
-                for _ in 0..draws {
-                    v += t.systematic * (2.0 * rng.uniform() - 1.0) + t.random * rng.normal();
-                }
-            }
-            total += v;
-            if let Some(s) = a.stock {
-                for (k, sp) in species.iter().enumerate() {
-                    amount[k] += lab.stocks[s].concentration_of(sp) * stock_factor[s] * v;
-                }
-            }
-        }
-        let c: Vec<(String, f64)> = species
+        let volumes: Vec<f64> = run
+            .additions
             .iter()
-            .cloned()
-            .zip(amount.iter().map(|a| a / total))
+            .map(|a| {
+                let mut v = a.volume;
+                for &(d, fills) in &a.delivery.parts {
+                    let t = tolerance(&lab.devices[d]);
+                    let draws = if lab.devices[d].is_volumetric() {
+                        fills
+                    } else {
+                        1
+                    };
+                    for _ in 0..draws {
+                        v += t.systematic * (2.0 * rng.uniform() - 1.0) + t.random * rng.normal();
+                    }
+                }
+                v
+            })
             .collect();
+        let c = mixed(lab, run, &volumes, &stock_factor);
         for (k, (_, ck)) in c.iter().enumerate() {
             ln_c[k].push(ck.ln());
         }
@@ -186,43 +205,34 @@ fn design_standard_errors_agree_with_monte_carlo_of_the_fits() {
             let mut y = Vec::with_capacity(rows.len());
             for &i in &rows {
                 let run = &solution.runs[i];
-                let species: Vec<String> =
-                    run.concentrations.iter().map(|(s, _)| s.clone()).collect();
-                let mut total = 0.0;
-                let mut amount = vec![0.0; species.len()];
-                for a in &run.additions {
-                    let mut v = a.volume;
-                    for &(dv, n) in &a.delivery.parts {
-                        let dev = &lab.devices[dv];
-                        let tol = tolerance(dev);
-                        if dev.is_volumetric() {
-                            v += n as f64 * bias[dv];
-                        } else {
-                            v += bias[dv] + tol.random * rng.normal();
-                            let graduated = !matches!(
-                                dev.kind,
-                                clockprep::reference::glassware::DeviceKind::PistonPipette
-                            );
-                            if graduated {
-                                // Final minus initial reading.
-                                let read = || 0.2 * dev.step;
-                                v += read() * (2.0 * rng.uniform() - 1.0)
-                                    - read() * (2.0 * rng.uniform() - 1.0);
+                let volumes: Vec<f64> = run
+                    .additions
+                    .iter()
+                    .map(|a| {
+                        let mut v = a.volume;
+                        for &(dv, n) in &a.delivery.parts {
+                            let dev = &lab.devices[dv];
+                            let tol = tolerance(dev);
+                            if dev.is_volumetric() {
+                                v += n as f64 * bias[dv];
+                            } else {
+                                v += bias[dv] + tol.random * rng.normal();
+                                let graduated = !matches!(
+                                    dev.kind,
+                                    clockprep::reference::glassware::DeviceKind::PistonPipette
+                                );
+                                if graduated {
+                                    // Final minus initial reading.
+                                    let read = || 0.2 * dev.step;
+                                    v += read() * (2.0 * rng.uniform() - 1.0)
+                                        - read() * (2.0 * rng.uniform() - 1.0);
+                                }
                             }
                         }
-                    }
-                    total += v;
-                    if let Some(s) = a.stock {
-                        for (k, sp) in species.iter().enumerate() {
-                            amount[k] += lab.stocks[s].concentration_of(sp) * stock_factor[s] * v;
-                        }
-                    }
-                }
-                let c: Vec<(String, f64)> = species
-                    .iter()
-                    .cloned()
-                    .zip(amount.iter().map(|a| a / total))
+                        v
+                    })
                     .collect();
+                let c = mixed(lab, run, &volumes, &stock_factor);
                 let timing = c.iter().find(|(s, _)| *s == spec.timing.species).unwrap().1;
                 let t_trial = t_plan + d.temperature_spread * rng.normal();
                 let t = RunKinetics::new(reaction, &c, timing)
