@@ -576,7 +576,21 @@ mod tests {
 
     /// A base point of three species and each doubled in turn.
     fn ofat_runs() -> Vec<DesignedRun> {
-        let runs = ofat_runs();
+        let base = [("A", 0.01), ("B", 0.02), ("C", 0.05)];
+        let mut runs = vec![DesignedRun {
+            name: "base".into(),
+            targets: base.iter().map(|(s, c)| (s.to_string(), *c)).collect(),
+        }];
+        for j in 0..3 {
+            runs.push(DesignedRun {
+                name: format!("x2 {j}"),
+                targets: base
+                    .iter()
+                    .enumerate()
+                    .map(|(i, (s, c))| (s.to_string(), if i == j { 2.0 * c } else { *c }))
+                    .collect(),
+            });
+        }
         runs
     }
 
