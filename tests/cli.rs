@@ -977,7 +977,12 @@ fn labels_one_per_flask_with_signal_word_and_sds_on_both_papers() {
         assert_eq!(out.status.code(), Some(0));
         let html = String::from_utf8(out.stdout).unwrap();
         assert_eq!(html.matches("<div class=\"label\">").count() as u64, flasks);
-        assert_eq!(html.matches("See the SDS").count() as u64, flasks);
+        // Every label carries the cautions: goggles, gloves, SDS, waste.
+        assert_eq!(
+            html.matches("Goggles and gloves. See the SDS; waste and local rules apply.")
+                .count() as u64,
+            flasks
+        );
         assert!(html.contains("<span class=\"signal\">Danger</span>: H271, H301, H350"));
         assert!(html.contains("on the day made"));
     }

@@ -3,7 +3,7 @@
 //! 0.16 in side margins) (both common office label sheets, common practice). One label per flask
 //! made up. Each says the stock, what is in it, blanks for the date made, the maker and the
 //! use-by date (with the rule from the reagent data), the GHS signal word and hazard codes, and
-//! "see SDS".
+//! the cautions (goggles, gloves, SDS, waste, local rules).
 
 use super::cards::Paper;
 use crate::report::StockSheet;
@@ -67,7 +67,7 @@ body {{ margin: 0; font-family: "DejaVu Sans", Arial, sans-serif; color: #000; }
                                         ": " (s.hazard_codes.join(", "))
                                     }
                                 }
-                                div { "See the SDS; local rules apply." }
+                                div { "Goggles and gloves. See the SDS; waste and local rules apply." }
                             }
                         }
                     }
