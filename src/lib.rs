@@ -62,7 +62,7 @@ fn report_of(
         .prior
         .as_ref()
         .map(|p| kinetics::forecast::forecast(spec, p, &initial));
-    Ok(report::build(
+    let mut report = report::build(
         spec,
         lab,
         solution,
@@ -70,7 +70,33 @@ fn report_of(
         &totals,
         forecast.as_ref(),
         uncertainty,
-    ))
+    );
+    report.sections = report::section_forecasts(spec, &section_forecasts(spec, &initial));
+    Ok(report)
+}
+
+/// Each lab section's forecast: the same runs at the section's temperature (else the spec's),
+/// with its replicates for the session check. Empty without sections or a prior.
+fn section_forecasts(
+    spec: &spec::Spec,
+    initial: &[Vec<(String, f64)>],
+) -> Vec<kinetics::forecast::Forecast> {
+    let Some(prior) = &spec.prior else {
+        return Vec::new();
+    };
+    spec.sections
+        .iter()
+        .map(|s| {
+            let mut one = spec.clone();
+            one.stations = s.stations;
+            one.replicates = s.replicates;
+            let mut p = prior.clone();
+            if let Some(t) = s.temperature {
+                p.settings.temperature = t;
+            }
+            kinetics::forecast::forecast(&one, &p, initial)
+        })
+        .collect()
 }
 
 fn stock_sheet(
@@ -83,8 +109,8 @@ fn stock_sheet(
     let preps = lab::recipes::prepare(lab, &totals);
     let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, uncertainty);
     let small = lab::recipes::small_masses(lab, &preps);
-    let waste = lab::waste::waste(spec, lab, solution, &totals, &preps);
-    report::build_stocks(spec, lab, &preps, &dominant, &small, &waste)
+    let waste = lab::waste::waste(lab, solution, &totals, &preps);
+    report::build_stocks(spec, lab, &preps, &dominant, &small, &waste, &totals.week)
 }
 
 /// Forecast clock times: from the delivered concentrations when the spec lists stocks (as

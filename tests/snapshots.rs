@@ -139,3 +139,20 @@ fn peroxide_tune() {
         insta::assert_snapshot!(format!("peroxide_tune_{ext}"), text);
     }
 }
+
+#[test]
+fn two_section_week() {
+    // Two lab sections on two days: the mixing sheet (with each section's forecast), the
+    // stocks sheet (schedule, checklist, fetch lists, waste by section) in every format, and
+    // the labels on both sheet grids.
+    check("birchfield-two-sections", "week");
+    let sheet = clockprep::stocks(source("plans/birchfield-two-sections.toml")).unwrap();
+    for (format, ext) in FORMATS {
+        let text = String::from_utf8(export_stocks(&sheet, format)).unwrap();
+        insta::assert_snapshot!(format!("week_stocks_{ext}"), text);
+    }
+    for (paper, p) in [(Paper::A4, "a4"), (Paper::Letter, "letter")] {
+        let html = String::from_utf8(clockprep::export::labels::labels(&sheet, paper)).unwrap();
+        insta::assert_snapshot!(format!("week_labels_{p}"), html);
+    }
+}

@@ -210,9 +210,13 @@ impl Exporter for Csv {
             w.plan_row("tray", &t.stock, t.fill_ml.to_string(), e(), e());
         }
         for t in &report.stock_totals {
+            let stock = match &t.made_on {
+                Some(d) => format!("{} made {d}", t.stock),
+                None => t.stock.clone(),
+            };
             w.plan_row(
                 "stock_total",
-                &t.stock,
+                &stock,
                 t.ml.to_string(),
                 t.flasks.clone(),
                 e(),
@@ -253,6 +257,8 @@ impl Exporter for Csv {
         let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
         w.write_record([
             "stock",
+            "made_on",
+            "for_sections",
             "solute",
             "molar_mass_g_per_mol",
             "need_mL",
@@ -269,6 +275,8 @@ impl Exporter for Csv {
         for s in &sheet.stocks {
             w.write_record([
                 s.name.clone(),
+                s.made_on.clone().unwrap_or_default(),
+                s.for_sections.join(" "),
                 s.solute.clone().unwrap_or_default(),
                 opt(s.molar_mass),
                 s.need_ml.to_string(),
@@ -283,23 +291,66 @@ impl Exporter for Csv {
             ])
             .expect("writing to memory cannot fail");
         }
-        // The fetch list: `recipe` = `fetch`, the item in `stock`, its total in grams or mL.
-        for f in &sheet.fetch {
-            let mut row = vec![String::new(); 12];
+        // Further rows, `recipe` naming what each is: `fetch` (the week's fetch list: the item
+        // in `stock`, its total in grams or mL), `fetch_day` (the same for one day's batches,
+        // the day in `made_on`), `waste` (the week's, or a section's with its name in
+        // `for_sections` and its date in `made_on`: spent mixture in `need_mL`, left-over stock
+        // in `mL_per_flask`, each solute's grams in `grams_per_flask` with the solute in
+        // `solute`), and `advice` (the sentence in `instruction`).
+        const N: usize = 14;
+        let fetch_row = |f: &crate::report::FetchItem, kind: &str, day: &str| {
+            let mut row = vec![String::new(); N];
             row[0] = f.item.clone();
-            row[6] = "fetch".into();
-            row[7] = opt(f.grams);
-            row[8] = opt(f.ml);
-            row[10] = f.hazard_codes.join(" ");
-            row[11] = format!("for {}", f.for_stocks.join(", "));
-            w.write_record(row).expect("writing to memory cannot fail");
+            row[1] = day.to_string();
+            row[8] = kind.into();
+            row[9] = opt(f.grams);
+            row[10] = opt(f.ml);
+            row[12] = f.hazard_codes.join(" ");
+            row[13] = format!("for {}", f.for_stocks.join(", "));
+            row
+        };
+        for f in &sheet.fetch {
+            w.write_record(fetch_row(f, "fetch", ""))
+                .expect("writing to memory cannot fail");
         }
-        // The sheet's advice (standardize, masses too small for the balance) as rows of their
-        // own, the sentence in `instruction`.
+        for d in &sheet.schedule {
+            for f in &d.fetch {
+                w.write_record(fetch_row(f, "fetch_day", &d.date))
+                    .expect("writing to memory cannot fail");
+            }
+        }
+        let mut waste_rows = |fig: &crate::report::WasteFigures, section: &str, date: &str| {
+            let mut row = vec![String::new(); N];
+            row[0] = "spent mixture and left-over stock".into();
+            row[1] = date.to_string();
+            row[2] = section.to_string();
+            row[5] = fig.spent_mixture_ml.to_string();
+            row[8] = "waste".into();
+            row[10] = fig.leftover_total_ml.to_string();
+            row[13] =
+                "waste: spent mixture (mL) in need_mL, left-over stock (mL) in mL_per_flask".into();
+            w.write_record(row).expect("writing to memory cannot fail");
+            for x in &fig.solutes {
+                let mut row = vec![String::new(); N];
+                row[0] = x.stock.clone();
+                row[1] = date.to_string();
+                row[2] = section.to_string();
+                row[3] = x.solute.clone();
+                row[8] = "waste".into();
+                row[9] = x.grams.to_string();
+                row[12] = x.hazard_codes.join(" ");
+                row[13] = "waste: g of the solute in spent mixture and left-over stock, in grams_per_flask".into();
+                w.write_record(row).expect("writing to memory cannot fail");
+            }
+        };
+        waste_rows(&sheet.waste.week, "", "");
+        for s in &sheet.waste.by_section {
+            waste_rows(&s.figures, &s.section, &s.date);
+        }
         for a in &sheet.advice {
-            let mut row = vec![String::new(); 12];
-            row[6] = "advice".into();
-            row[11] = a.clone();
+            let mut row = vec![String::new(); N];
+            row[8] = "advice".into();
+            row[13] = a.clone();
             w.write_record(row).expect("writing to memory cannot fail");
         }
         w.into_inner().expect("writing to memory cannot fail")

@@ -1,7 +1,8 @@
 //! Bottle labels for the stocks, as printable HTML on a common label-sheet grid: A4 with 3 × 8
 //! labels of 70 × 37 mm (no margins), US Letter with 2 × 5 labels of 4 × 2 in (0.5 in top and
 //! 0.16 in side margins) (both common office label sheets, common practice). One label per flask
-//! made up. Each says the stock, what is in it, blanks for the date made, the maker and the
+//! made up, for every batch (lab sections: a stock made fresh each day has a label per flask per
+//! day, with the planned day). Each says the stock, what is in it, blanks for the date made, the maker and the
 //! use-by date (with the rule from the reagent data), the GHS signal word and hazard codes, and
 //! the cautions (goggles, gloves, SDS, waste, local rules).
 
@@ -57,8 +58,13 @@ body {{ margin: 0; font-family: "DejaVu Sans", Arial, sans-serif; color: #000; }
                             div.label {
                                 div.name { (s.name) }
                                 div { (s.solute.clone().unwrap_or_default()) @if let Some(m) = s.molar_mass { " (" (format!("{m:.2}")) " g/mol)" } }
-                                div { "Made: ________  by: ______" }
-                                div { "Use by: ________ (" (c.use_by) ")" }
+                                @if let Some(d) = &c.made_on {
+                                    div { "Made: ________ (plan " (d) ")  by: ______" }
+                                    div { "Use by: " (c.use_by_date.clone().unwrap_or_else(|| "________".into())) " (" (c.use_by) ")" }
+                                } @else {
+                                    div { "Made: ________  by: ______" }
+                                    div { "Use by: ________ (" (c.use_by) ")" }
+                                }
                                 @if s.hazard_codes.is_empty() {
                                     div { "No GHS classification in our data" }
                                 } @else {

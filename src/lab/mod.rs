@@ -3,6 +3,7 @@
 
 pub mod portions;
 pub mod recipes;
+pub mod schedule;
 pub mod totals;
 pub mod uncertainty;
 pub mod waste;

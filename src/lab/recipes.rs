@@ -22,10 +22,18 @@ pub enum Action {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Preparation {
     pub stock: usize,
+    /// The days this batch serves (indices into the week's days); the first is the day it is
+    /// made. A stock made fresh each day has one batch a day.
+    pub days: Vec<usize>,
     /// L needed: by the runs (with overage) plus what dilutions draw.
     pub need: f64,
     /// L drawn by dilutions of other stocks (their aliquots, with the overage).
     pub drawn: f64,
+    /// L delivered from it into the runs of the sections it serves (no overage).
+    pub used: f64,
+    /// L of it that the dilutions' aliquots take (no overage): the rest of `drawn` stays in
+    /// the flask.
+    pub aliquots: f64,
     pub flasks: FlaskSet,
     pub action: Action,
 }
@@ -58,72 +66,107 @@ pub fn liquid_volume_ml(concentration: f64, volume: f64, molar_mass: f64, w: f64
     concentration * volume * molar_mass / (w * rho)
 }
 
+/// Every batch to make: each batch of a stock the runs use (see [`Totals`]), with what the
+/// dilutions made that day draw from it, and each batch of a stock only diluted (a bench
+/// concentrate), made on the days its dilutions are. By stock, then day.
 pub fn prepare(lab: &Lab, totals: &Totals) -> Vec<Preparation> {
-    let mut need: Vec<f64> = vec![0.0; lab.stocks.len()];
-    let mut listed: Vec<usize> = Vec::new();
-    for t in &totals.stocks {
-        need[t.stock] = t.need;
-        listed.push(t.stock);
-    }
-    // Draws of dilutions from their sources (one level: a source is never itself a dilution),
-    // with the overage for the aliquots' rinses and transfers.
-    let mut drawn = vec![0.0; lab.stocks.len()];
-    for &s in &listed {
-        if let Recipe::Dilute { from, factor } = lab.stocks[s].recipe {
-            let made = flasks_for_stock(lab, s, need[s]).total();
-            drawn[from] += made * factor * (1.0 + lab.overage);
-        }
-    }
-    for (s, &d) in drawn.iter().enumerate() {
-        if d > 0.0 && !listed.contains(&s) {
-            listed.push(s);
-        }
-    }
-    listed.sort_unstable();
-    listed
-        .into_iter()
-        .map(|s| {
-            let total = need[s] + drawn[s];
-            let flasks = flasks_for_stock(lab, s, total);
-            let action = match &lab.stocks[s].recipe {
-                Recipe::Weigh {
-                    concentration,
-                    molar_mass,
-                    purity,
-                    ..
-                } => Action::Weigh {
-                    grams_per_l: mass_to_weigh(*concentration, 1.0, *molar_mass, *purity),
-                },
-                Recipe::Measure {
-                    concentration,
-                    molar_mass,
-                    mass_fraction,
-                    density,
-                    ..
-                } => Action::Measure {
-                    ml_per_l: liquid_volume_ml(
-                        *concentration,
-                        1.0,
-                        *molar_mass,
-                        *mass_fraction,
-                        *density,
-                    ),
-                },
-                Recipe::Dilute { from, factor } => Action::Dilute {
-                    from: *from,
-                    ml_per_l: factor * 1e3,
-                },
-                Recipe::None => Action::AsUsual,
-            };
-            Preparation {
-                stock: s,
-                need: total,
-                drawn: drawn[s],
-                flasks,
-                action,
+    // Draws of dilutions from their sources (one level: a source is never itself a dilution):
+    // (source, day made, L with the overage for rinses and transfers, L of the aliquots).
+    let draws: Vec<(usize, usize, f64, f64)> = totals
+        .stocks
+        .iter()
+        .filter_map(|b| match lab.stocks[b.stock].recipe {
+            Recipe::Dilute { from, factor } => {
+                let aliquot = b.flasks.total() * factor;
+                Some((from, b.days[0], aliquot * (1.0 + lab.overage), aliquot))
             }
+            _ => None,
         })
-        .collect()
+        .collect();
+    let mut listed: Vec<usize> = totals
+        .stocks
+        .iter()
+        .map(|b| b.stock)
+        .chain(draws.iter().map(|d| d.0))
+        .collect();
+    listed.sort_unstable();
+    listed.dedup();
+    let mut out = Vec::new();
+    for s in listed {
+        // (days, need by runs, used by runs, drawn, aliquots)
+        let mut batches: Vec<(Vec<usize>, f64, f64, f64, f64)> = totals
+            .stocks
+            .iter()
+            .filter(|b| b.stock == s)
+            .map(|b| (b.days.clone(), b.need, b.used, 0.0, 0.0))
+            .collect();
+        let mine: Vec<_> = draws.iter().filter(|d| d.0 == s).collect();
+        if batches.is_empty() {
+            let mut needed: Vec<usize> = mine.iter().map(|d| d.1).collect();
+            needed.sort_unstable();
+            needed.dedup();
+            let keeps = crate::lab::schedule::keeps_days(lab, s).unwrap_or(0);
+            batches = totals
+                .week
+                .batches(&needed, keeps)
+                .into_iter()
+                .map(|days| (days, 0.0, 0.0, 0.0, 0.0))
+                .collect();
+        }
+        for d in mine {
+            // The batch that serves the day the dilution is made (else the last made before).
+            let i = batches
+                .iter()
+                .position(|b| b.0.contains(&d.1))
+                .or_else(|| batches.iter().rposition(|b| b.0[0] <= d.1))
+                .unwrap_or(0);
+            batches[i].3 += d.2;
+            batches[i].4 += d.3;
+        }
+        let action = action_of(lab, s);
+        for (days, need, used, drawn, aliquots) in batches {
+            let total = need + drawn;
+            out.push(Preparation {
+                stock: s,
+                days,
+                need: total,
+                drawn,
+                used,
+                aliquots,
+                flasks: flasks_for_stock(lab, s, total),
+                action: action.clone(),
+            });
+        }
+    }
+    out
+}
+
+/// How a stock is made up, per litre.
+fn action_of(lab: &Lab, s: usize) -> Action {
+    match &lab.stocks[s].recipe {
+        Recipe::Weigh {
+            concentration,
+            molar_mass,
+            purity,
+            ..
+        } => Action::Weigh {
+            grams_per_l: mass_to_weigh(*concentration, 1.0, *molar_mass, *purity),
+        },
+        Recipe::Measure {
+            concentration,
+            molar_mass,
+            mass_fraction,
+            density,
+            ..
+        } => Action::Measure {
+            ml_per_l: liquid_volume_ml(*concentration, 1.0, *molar_mass, *mass_fraction, *density),
+        },
+        Recipe::Dilute { from, factor } => Action::Dilute {
+            from: *from,
+            ml_per_l: factor * 1e3,
+        },
+        Recipe::None => Action::AsUsual,
+    }
 }
 
 /// A mass too small for the balance, and how to weigh more.
@@ -165,59 +208,67 @@ const MIN_ALIQUOT: f64 = 1e-3;
 /// [`MIN_READABILITIES`]: crate::spec::MIN_READABILITIES
 pub fn small_masses(lab: &Lab, preps: &[Preparation]) -> Vec<SmallMass> {
     let least = crate::spec::MIN_READABILITIES * lab.balance;
-    preps
-        .iter()
-        .filter_map(|p| {
-            let Action::Weigh { grams_per_l } = p.action else {
-                return None;
-            };
-            // The smallest flask of the set weighs the least.
-            let flask = p.flasks.smallest();
-            let grams = grams_per_l * flask;
-            let Recipe::Weigh {
-                concentration,
-                molar_mass,
-                purity,
-                ..
-            } = &lab.stocks[p.stock].recipe
-            else {
-                return None;
-            };
-            if grams >= least {
+    let mut out: Vec<SmallMass> = Vec::new();
+    let each = preps.iter().filter_map(|p| {
+        let Action::Weigh { grams_per_l } = p.action else {
+            return None;
+        };
+        // The smallest flask of the set weighs the least.
+        let flask = p.flasks.smallest();
+        let grams = grams_per_l * flask;
+        let Recipe::Weigh {
+            concentration,
+            molar_mass,
+            purity,
+            ..
+        } = &lab.stocks[p.stock].recipe
+        else {
+            return None;
+        };
+        if grams >= least {
+            return None;
+        }
+        let concentrate = FACTORS.iter().find_map(|&factor| {
+            let aliquot = flask / factor;
+            if aliquot < MIN_ALIQUOT {
                 return None;
             }
-            let concentrate = FACTORS.iter().find_map(|&factor| {
-                let aliquot = flask / factor;
-                if aliquot < MIN_ALIQUOT {
-                    return None;
-                }
-                let drawn = p.flasks.total() / factor * (1.0 + lab.overage);
-                let set = flask_for(drawn, &lab.flasks, hazardous(lab, p.stock));
-                let g = mass_to_weigh(concentration * factor, set.smallest(), *molar_mass, *purity);
-                (g >= least).then_some(Concentrate {
-                    factor,
-                    flasks: set,
-                    grams: g,
-                    aliquot,
-                })
-            });
-            let larger_flask = if p.flasks.count() == 1 {
-                lab.flasks
-                    .iter()
-                    .find(|&&f| f > flask && grams * f / flask >= least)
-                    .map(|&f| (f, grams * f / flask))
-            } else {
-                None
-            };
-            Some(SmallMass {
-                stock: p.stock,
-                grams,
-                readabilities: grams / lab.balance,
-                concentrate,
-                larger_flask,
+            let drawn = p.flasks.total() / factor * (1.0 + lab.overage);
+            let set = flask_for(drawn, &lab.flasks, hazardous(lab, p.stock));
+            let g = mass_to_weigh(concentration * factor, set.smallest(), *molar_mass, *purity);
+            (g >= least).then_some(Concentrate {
+                factor,
+                flasks: set,
+                grams: g,
+                aliquot,
             })
+        });
+        let larger_flask = if p.flasks.count() == 1 {
+            lab.flasks
+                .iter()
+                .find(|&&f| f > flask && grams * f / flask >= least)
+                .map(|&f| (f, grams * f / flask))
+        } else {
+            None
+        };
+        Some(SmallMass {
+            stock: p.stock,
+            grams,
+            readabilities: grams / lab.balance,
+            concentrate,
+            larger_flask,
         })
-        .collect()
+    });
+    // One entry per stock: the smallest mass of any of its batches (lab sections make a
+    // stock fresh each day, in flasks that may differ), whose alternative fixes them all.
+    for m in each {
+        match out.iter_mut().find(|o| o.stock == m.stock) {
+            Some(o) if m.grams < o.grams => *o = m,
+            Some(_) => {}
+            None => out.push(m),
+        }
+    }
+    out
 }
 
 #[cfg(test)]

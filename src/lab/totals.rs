@@ -1,19 +1,23 @@
 //! Stock to prepare: per stock, the volume used by every run, times replicates and stations,
 //! plus the overage, rounded up to a volumetric flask size.
 
+use crate::lab::schedule::{keeps_days, Week};
 use crate::solve::{Holder, Solution};
 use crate::spec::{Lab, Spec};
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct StockTotal {
     pub stock: usize,
+    /// The days this batch serves (indices into [`Week::days`]); the first is the day it is
+    /// made. A one-section spec has one day.
+    pub days: Vec<usize>,
     /// L used by one station doing every run once.
     pub per_station_set: f64,
-    /// L used by the whole lab: all runs × replicates × stations.
+    /// L used by the sections this batch serves: all runs × replicates × stations.
     pub used: f64,
     /// L one station spends rinsing and filling the devices that hold this stock.
     pub dead_per_station: f64,
-    /// L to prepare: used plus overage, plus every station's dead volume.
+    /// L to prepare: used plus overage, plus every station's dead volume, each section.
     pub need: f64,
     /// The flasks to make it up in.
     pub flasks: FlaskSet,
@@ -46,10 +50,8 @@ impl FlaskSet {
         self.0
             .iter()
             .map(|(f, n)| {
-                format!(
-                    "{n} x {} mL",
-                    crate::units::sig(f * 1e3, 4).trim_end_matches(".0")
-                )
+                // Whole millilitres as "50", never "50.00" (to the microlitre otherwise).
+                format!("{n} x {} mL", (f * 1e3 * 1e3).round() / 1e3)
             })
             .collect::<Vec<_>>()
             .join(" + ")
@@ -58,12 +60,14 @@ impl FlaskSet {
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct Totals {
+    /// Every batch of every stock the runs use, by stock then day.
     pub stocks: Vec<StockTotal>,
-    /// L of water used by the whole lab as make-up (no overage added).
+    /// L of water used by every section as make-up (no overage added).
     pub water: f64,
     /// L of water one station uses as make-up, and spends rinsing and filling its devices.
     pub water_per_station: f64,
     pub water_dead_per_station: f64,
+    pub week: Week,
 }
 
 /// What one station spends on rinsing and filling the devices that hold `holder`.
@@ -195,37 +199,59 @@ pub fn hazardous(lab: &Lab, stock: usize) -> bool {
 }
 
 pub fn compute(spec: &Spec, lab: &Lab, solution: &Solution) -> Totals {
-    let sets = (spec.replicates * spec.stations) as f64;
-    let stocks = solution
-        .used_stocks
-        .iter()
-        .map(|&s| {
-            let per_station_set: f64 = solution.runs.iter().map(|r| r.volume_of(s)).sum();
+    let week = Week::of(spec);
+    let all_days: Vec<usize> = (0..week.days.len()).collect();
+    let mut stocks = Vec::new();
+    for &s in &solution.used_stocks {
+        let per_station_set: f64 = solution.runs.iter().map(|r| r.volume_of(s)).sum();
+        let dead_per_station = dead_volume(lab, solution, Holder::Stock(s));
+        for days in week.batches(&all_days, keeps_days(lab, s).unwrap_or(0)) {
+            let groups = days.iter().flat_map(|&d| &week.days[d].groups);
+            let (sets, stations) = groups.fold((0.0, 0.0), |(sets, st), &g| {
+                let g = &week.groups[g];
+                (
+                    sets + (g.replicates * g.stations) as f64,
+                    st + g.stations as f64,
+                )
+            });
             let used = per_station_set * sets;
-            let dead_per_station = dead_volume(lab, solution, Holder::Stock(s));
-            let need = used * (1.0 + lab.overage) + dead_per_station * spec.stations as f64;
-            StockTotal {
+            let need = used * (1.0 + lab.overage) + dead_per_station * stations;
+            stocks.push(StockTotal {
                 stock: s,
+                days,
                 per_station_set,
                 used,
                 dead_per_station,
                 need,
                 flasks: flasks_for_stock(lab, s, need),
-            }
-        })
-        .collect();
+            });
+        }
+    }
     let one_set = solution.runs.iter().map(|r| r.water().volume).sum::<f64>();
+    let sets: f64 = week
+        .groups
+        .iter()
+        .map(|g| (g.replicates * g.stations) as f64)
+        .sum();
     Totals {
         stocks,
         water: one_set * sets,
         water_per_station: one_set * spec.replicates as f64,
         water_dead_per_station: dead_volume(lab, solution, Holder::Water),
+        week,
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn flask_labels_print_whole_millilitres() {
+        // Was "1 x 50.00 mL" beside "1 x 1000 mL".
+        let set = FlaskSet(vec![(1.0, 1), (0.05, 2), (0.0025, 1)]);
+        assert_eq!(set.label(), "1 x 1000 mL + 2 x 50 mL + 1 x 2.5 mL");
+    }
 
     #[test]
     fn flasks_by_least_surplus() {

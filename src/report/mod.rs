@@ -149,6 +149,9 @@ pub struct RunRecipe {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StockTotal {
     pub stock: String,
+    /// With lab sections, the planned day this batch is made (null for a one-section spec);
+    /// a stock made fresh each day has a total per day.
+    pub made_on: Option<String>,
     /// Volume to prepare: whole lab plus overage.
     #[serde(rename = "mL")]
     pub ml: f64,
@@ -223,6 +226,9 @@ pub struct PlanReport {
     pub tray: Vec<TrayItem>,
     pub runs: Vec<RunReport>,
     pub stock_totals: Vec<StockTotal>,
+    /// The lab sections (`[[section]]`) with each run's forecast at the section's temperature;
+    /// empty for a one-section spec.
+    pub sections: Vec<SectionForecast>,
     #[serde(rename = "water_total_mL")]
     pub water_total_ml: f64,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -236,6 +242,66 @@ pub struct PlanReport {
     pub cautions: Vec<String>,
     /// The reagents of the plan with their GHS hazard codes (for compact card cautions).
     pub reagents: Vec<ReagentHazard>,
+}
+
+/// A lab section on the mixing sheet: its day, size and temperature, and the runs' forecast
+/// there (the same volumes; only the temperature and the session change).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SectionForecast {
+    pub name: String,
+    pub date: String,
+    pub weekday: String,
+    pub stations: u32,
+    pub replicates: u32,
+    /// The section's temperature, else the spec's (null when neither gives one).
+    #[serde(rename = "temperature_C")]
+    pub temperature_c: Option<f64>,
+    /// Each run's predicted time to colour there (null without a prior or a clock), and its
+    /// forecast flags' codes.
+    pub runs: Vec<SectionRun>,
+    /// The section's plan-wide warnings (e.g. its session longer than the lab period).
+    pub warnings: Vec<Flag>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SectionRun {
+    pub run: String,
+    pub time_s: Option<f64>,
+    pub flags: Vec<Flag>,
+}
+
+/// The sections of a spec with their forecasts (one per section, or none without a prior).
+pub fn section_forecasts(spec: &Spec, forecasts: &[Forecast]) -> Vec<SectionForecast> {
+    spec.sections
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            let f = forecasts.get(i);
+            let t = s
+                .temperature
+                .or(spec.prior.as_ref().map(|p| p.settings.temperature))
+                .or(spec.temperature);
+            SectionForecast {
+                name: s.name.clone(),
+                date: s.date_text(),
+                weekday: crate::spec::day_text(s.date)[..3].to_string(),
+                stations: s.stations,
+                replicates: s.replicates,
+                temperature_c: t.map(|t| sig10(t - 273.15)),
+                runs: spec
+                    .runs
+                    .iter()
+                    .enumerate()
+                    .map(|(r, run)| SectionRun {
+                        run: run.name.clone(),
+                        time_s: f.and_then(|f| f.runs[r].time()).map(sig10),
+                        flags: f.map(|f| f.runs[r].warnings.clone()).unwrap_or_default(),
+                    })
+                    .collect(),
+                warnings: f.map(|f| f.warnings.clone()).unwrap_or_default(),
+            }
+        })
+        .collect()
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -426,16 +492,24 @@ pub fn build(
         device_choices: station::choices(spec, lab, solution),
         tray: station::tray(lab, totals, spec.replicates),
         runs,
+        sections: Vec::new(),
         stock_totals: totals
             .stocks
             .iter()
             .map(|t| StockTotal {
                 stock: name(Some(t.stock)),
+                made_on: totals.week.days[t.days[0]].date.map(crate::spec::date_text),
                 ml: ml(t.need),
                 used_ml: ml(t.used),
                 one_set_ml: ml(t.per_station_set),
                 per_station_ml: ml(t.per_station_set * spec.replicates as f64),
-                dead_volume_ml: ml(t.dead_per_station * spec.stations as f64),
+                // Every station of the sections this batch serves.
+                dead_volume_ml: ml(t.dead_per_station
+                    * t.days
+                        .iter()
+                        .flat_map(|&d| &totals.week.days[d].groups)
+                        .map(|&g| totals.week.groups[g].stations as f64)
+                        .sum::<f64>()),
                 flask_ml: ml(t.flasks.largest()),
                 flask_count: t.flasks.count(),
                 flasks: t.flasks.label(),

@@ -3,7 +3,8 @@
 use super::page::{headers, Align, Block, Chart, Item, Page, Section, Table};
 use super::words::{forecast_lines, ml_decimals, mm, pour, secs, sig, NOT_A_GUARANTEE, PRIOR_NOTE};
 use super::{
-    ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport, StockSheet,
+    FetchItem, ForecastSettingsReport, ForecastSheet, PlanReport, ReactionReport, RunReport,
+    ScheduleMake, StockSheet,
 };
 
 /// The cautions box, last on every sheet.
@@ -281,11 +282,70 @@ impl PlanReport {
             sections.push(run_section(r, i + 1, of, dec));
         }
         sections.push(self.totals_section());
+        if !self.sections.is_empty() {
+            sections.push(self.sections_section());
+        }
         if let (Some(r), Some(s)) = (&self.reaction, &self.forecast_settings) {
             sections.push(prior_section(r, s));
         }
         sections.push(cautions(&self.cautions));
         Page { title, sections }
+    }
+
+    /// The lab sections: each one's day, size and temperature, and the runs' forecast there.
+    fn sections_section(&self) -> Section {
+        let mut s = Section::new("Lab sections");
+        s.para("The same runs and volumes for every section; the forecast is at each section's temperature (a forecast, not a guarantee: time a pilot run in that room).");
+        let mut cols = vec!["run".to_string()];
+        cols.extend(self.sections.iter().map(|x| {
+            let t = x
+                .temperature_c
+                .map(|t| format!(", {t:.1} °C"))
+                .unwrap_or_default();
+            format!("{} {} {}{t}", x.name, x.weekday, x.date)
+        }));
+        let mut rows = vec![{
+            let mut r = vec!["stations x replicates".to_string()];
+            r.extend(
+                self.sections
+                    .iter()
+                    .map(|x| format!("{} x {}", x.stations, x.replicates)),
+            );
+            r
+        }];
+        if self.reaction.is_some() {
+            for (i, run) in self.runs.iter().enumerate() {
+                let mut r = vec![format!("{} predicted", run.name)];
+                r.extend(self.sections.iter().map(|x| {
+                    let t = x.runs[i].time_s.map_or("-".into(), secs);
+                    let flags: Vec<&str> = x.runs[i].flags.iter().map(|f| f.code).collect();
+                    if flags.is_empty() {
+                        t
+                    } else {
+                        format!("{t} FLAG {}", flags.join(", "))
+                    }
+                }));
+                rows.push(r);
+            }
+        }
+        let mut align = vec![Align::Right; cols.len()];
+        align[0] = Align::Left;
+        s.push(Block::Table(Table::with_align(cols, align, rows)));
+        let mut flags = Vec::new();
+        for x in &self.sections {
+            for run in &x.runs {
+                for f in &run.flags {
+                    flags.push(format!("Section {}, {}: {}", x.name, run.run, f.message));
+                }
+            }
+            for w in &x.warnings {
+                flags.push(format!("Section {}: {}", x.name, w.message));
+            }
+        }
+        if !flags.is_empty() {
+            s.push(Block::Warnings(flags));
+        }
+        s
     }
 
     /// What one station sets up: the glassware list with the reason for each device, and the
@@ -375,16 +435,26 @@ impl PlanReport {
 
     fn totals_section(&self) -> Section {
         let mut s = Section::new("Stock to prepare");
-        s.para(format!(
-            "All runs x {} replicate(s) x {} station(s), plus {} % overage, plus each station's rinse and fill, in the volumetric flasks with the least surplus.",
-            self.replicates, self.stations, sig(self.overage_pct, 3)
-        ));
+        if self.stock_totals.iter().any(|t| t.made_on.is_some()) {
+            s.para(format!(
+                "Every lab section's runs x its replicates x its stations, plus {} % overage, plus each station's rinse and fill, in the volumetric flasks with the least surplus; one row per batch, by the day it is made (clockprep stocks prints the day-by-day schedule). Per station: at {} replicate(s), the most of any section.",
+                sig(self.overage_pct, 3), self.replicates
+            ));
+        } else {
+            s.para(format!(
+                "All runs x {} replicate(s) x {} station(s), plus {} % overage, plus each station's rinse and fill, in the volumetric flasks with the least surplus.",
+                self.replicates, self.stations, sig(self.overage_pct, 3)
+            ));
+        }
         let mut rows: Vec<Vec<String>> = self
             .stock_totals
             .iter()
             .map(|t| {
                 vec![
-                    t.stock.clone(),
+                    match &t.made_on {
+                        Some(d) => format!("{}, made {d}", t.stock),
+                        None => t.stock.clone(),
+                    },
                     format!("{:.1}", t.one_set_ml),
                     format!("{:.1}", t.per_station_ml),
                     format!("{:.1}", t.used_ml),
@@ -513,10 +583,18 @@ impl StockSheet {
         let title = format!("Stock preparation: {}", self.title);
         let mut head = Section::new(title.clone());
         head.para(format!("Spec: {}", self.spec));
-        head.para(format!(
-            "For {} station(s) x {} replicate(s) of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in the volumetric flasks with the least surplus (fewest flasks on a tie).",
-            self.stations, self.replicates, sig(self.overage_pct, 3)
-        ));
+        let dated = !self.schedule.is_empty();
+        if dated {
+            head.para(format!(
+                "For {} lab section(s) on {} day(s) (the schedule below), each section's stations x replicates of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in the volumetric flasks with the least surplus (fewest flasks on a tie). A stock that keeps is made once and serves the later days it keeps for; one made fresh on the day (or with no stability data) is made on each day it is used.",
+                self.sections.len(), self.schedule.len(), sig(self.overage_pct, 3)
+            ));
+        } else {
+            head.para(format!(
+                "For {} station(s) x {} replicate(s) of every run, plus {} % overage, plus what each station spends rinsing and filling its glassware, in the volumetric flasks with the least surplus (fewest flasks on a tie).",
+                self.stations, self.replicates, sig(self.overage_pct, 3)
+            ));
+        }
         let rows: Vec<Vec<String>> = self
             .stocks
             .iter()
@@ -526,8 +604,11 @@ impl StockSheet {
                     (None, Some(v)) => format!("{v:.2} mL"),
                     _ => "-".into(),
                 };
-                vec![
-                    s.name.clone(),
+                let mut row = vec![s.name.clone()];
+                if dated {
+                    row.push(s.made_on.clone().unwrap_or_default());
+                }
+                row.extend([
                     format!("{:.1}", s.need_ml),
                     s.flasks
                         .iter()
@@ -536,19 +617,26 @@ impl StockSheet {
                         .join(" + "),
                     s.recipe.kind.to_string(),
                     amount,
-                ]
+                ]);
+                row
             })
             .collect();
         let mut table = Section::untitled();
+        let mut head_cells = vec!["stock", "need (mL)", "flask", "recipe", "per flask"];
+        let mut align = vec![
+            Align::Left,
+            Align::Right,
+            Align::Left,
+            Align::Left,
+            Align::Right,
+        ];
+        if dated {
+            head_cells.insert(1, "made on");
+            align.insert(1, Align::Left);
+        }
         table.push(Block::Table(Table::with_align(
-            headers(&["stock", "need (mL)", "flask", "recipe", "per flask"]),
-            vec![
-                Align::Left,
-                Align::Right,
-                Align::Left,
-                Align::Left,
-                Align::Right,
-            ],
+            headers(&head_cells),
+            align,
             rows,
         )));
         if !self.advice.is_empty() {
@@ -572,8 +660,14 @@ impl StockSheet {
             }
         ));
         let mut sections = vec![head, table];
+        if dated {
+            sections.push(self.schedule_section());
+        }
         for s in &self.stocks {
-            let mut sec = Section::new(s.name.clone());
+            let mut sec = Section::new(match &s.made_on {
+                Some(d) => format!("{} (made {d}, for {})", s.name, s.for_sections.join(", ")),
+                None => s.name.clone(),
+            });
             sec.para(s.recipe.text.clone());
             sec.para(format!(
                 "Concentration uncertainty: {} % (k = 1; {}).",
@@ -616,28 +710,39 @@ impl StockSheet {
             .checklist
             .iter()
             .map(|c| {
-                vec![
-                    "[ ]".to_string(),
-                    c.stock.clone(),
+                let mut row = vec!["[ ]".to_string(), c.stock.clone()];
+                if let Some(d) = &c.made_on {
+                    row.push(d.clone());
+                }
+                row.extend([
                     c.flasks.clone(),
                     c.with.clone(),
                     "__________".into(),
                     "______".into(),
-                    c.use_by.clone(),
-                ]
+                    match &c.use_by_date {
+                        Some(d) => format!("{d} ({})", c.use_by),
+                        None => c.use_by.clone(),
+                    },
+                ]);
+                row
             })
             .collect();
+        let dated = self.checklist.iter().any(|c| c.made_on.is_some());
+        let mut cells = vec![
+            "done",
+            "stock",
+            "flasks",
+            "with",
+            "date made",
+            "initials",
+            "use by",
+        ];
+        if dated {
+            cells.insert(2, "planned");
+        }
         sec.push(Block::Table(Table::with_align(
-            headers(&[
-                "done",
-                "stock",
-                "flasks",
-                "with",
-                "date made",
-                "initials",
-                "use by",
-            ]),
-            vec![Align::Left; 7],
+            headers(&cells),
+            vec![Align::Left; cells.len()],
             rows,
         )));
         sec.para("Label every bottle with its name, concentration, the date made, the use-by date and its hazards (clockprep labels prints them); follow the recipe of each stock above.");
@@ -646,39 +751,112 @@ impl StockSheet {
 
     /// The solids and reagents to fetch, with their totals.
     fn fetch_section(&self) -> Section {
-        let mut sec = Section::new("Fetch from the store");
-        let rows = self
-            .fetch
-            .iter()
-            .map(|f| {
-                vec![
-                    f.item.clone(),
-                    match (f.grams, f.ml) {
-                        (Some(g), _) => format!("{g:.2} g"),
-                        (None, Some(v)) => format!("{v:.1} mL"),
-                        _ => "as your method".into(),
-                    },
-                    f.for_stocks.join(", "),
-                    match (f.signal_word, f.hazard_codes.is_empty()) {
-                        (Some(w), false) => format!("{w}: {}", f.hazard_codes.join(", ")),
-                        _ => "-".into(),
-                    },
-                ]
-            })
-            .collect();
-        sec.push(Block::Table(Table::with_align(
-            headers(&["solid or reagent", "total", "for", "hazards"]),
-            vec![Align::Left, Align::Right, Align::Left, Align::Left],
-            rows,
-        )));
+        let mut sec = Section::new(if self.schedule.is_empty() {
+            "Fetch from the store"
+        } else {
+            "Fetch from the store: the week"
+        });
+        sec.push(fetch_table(&self.fetch));
         sec.para("Totals are what the recipes take (assay included), before any spill: fetch a little more, and check each container's label and SDS.");
         sec
     }
 
+    /// The make-up schedule: each day's sections, the batches to make and what is used from
+    /// an earlier day, and what to fetch that day.
+    fn schedule_section(&self) -> Section {
+        let mut sec = Section::new("Make-up schedule");
+        sec.para("Each day's batches: make up the ones marked 'make', and use the ones made on an earlier day while they keep.");
+        let mut rows = Vec::new();
+        for d in &self.schedule {
+            let mut first = true;
+            let day = |first: bool| {
+                if first {
+                    [format!("{} {}", d.weekday, d.date), d.sections.join(", ")]
+                } else {
+                    [String::new(), String::new()]
+                }
+            };
+            let mut both: Vec<(&ScheduleMake, bool)> = d
+                .make
+                .iter()
+                .map(|m| (m, true))
+                .chain(d.from_earlier.iter().map(|m| (m, false)))
+                .collect();
+            both.sort_by_key(|(m, _)| {
+                self.stocks
+                    .iter()
+                    .position(|s| s.name == m.stock)
+                    .unwrap_or(usize::MAX)
+            });
+            for (m, make) in both {
+                let mut row = day(first).to_vec();
+                first = false;
+                row.extend([
+                    m.stock.clone(),
+                    if make {
+                        format!("make {}", m.flasks)
+                    } else {
+                        format!("use the batch made {}", m.made_on)
+                    },
+                    m.use_by
+                        .clone()
+                        .unwrap_or_else(|| "as your method says".into()),
+                ]);
+                rows.push(row);
+            }
+        }
+        sec.push(Block::Table(Table::with_align(
+            headers(&["day", "sections", "stock", "make up or use", "use by"]),
+            vec![Align::Left; 5],
+            rows,
+        )));
+        for d in &self.schedule {
+            if d.fetch.is_empty() {
+                continue;
+            }
+            sec.para(format!("Fetch for {} {}:", d.weekday, d.date));
+            sec.push(fetch_table(&d.fetch));
+        }
+        sec
+    }
+}
+
+/// A fetch list as a table.
+fn fetch_table(fetch: &[FetchItem]) -> Block {
+    let rows = fetch
+        .iter()
+        .map(|f| {
+            vec![
+                f.item.clone(),
+                match (f.grams, f.ml) {
+                    (Some(g), _) => format!("{g:.2} g"),
+                    (None, Some(v)) => format!("{v:.1} mL"),
+                    _ => "as your method".into(),
+                },
+                f.for_stocks.join(", "),
+                match (f.signal_word, f.hazard_codes.is_empty()) {
+                    (Some(w), false) => format!("{w}: {}", f.hazard_codes.join(", ")),
+                    _ => "-".into(),
+                },
+            ]
+        })
+        .collect();
+    Block::Table(Table::with_align(
+        headers(&["solid or reagent", "total", "for", "hazards"]),
+        vec![Align::Left, Align::Right, Align::Left, Align::Left],
+        rows,
+    ))
+}
+
+impl StockSheet {
     /// The waste figures: spent mixtures, left-over stock, the solutes in them.
     fn waste_section(&self) -> Section {
-        let w = &self.waste;
-        let mut sec = Section::new("Waste");
+        let w = &self.waste.week;
+        let mut sec = Section::new(if self.waste.by_section.is_empty() {
+            "Waste"
+        } else {
+            "Waste: the week"
+        });
         sec.para(format!(
             "Spent mixtures: {:.0} mL (every trial of every run at every station); left-over stock: {:.0} mL (made up but not delivered: overage, rinses and the flasks' rounding).",
             w.spent_mixture_ml, w.leftover_total_ml
@@ -704,6 +882,40 @@ impl StockSheet {
             vec![Align::Left, Align::Left, Align::Right, Align::Left],
             rows,
         )));
+        if !self.waste.by_section.is_empty() {
+            let solutes: Vec<&str> = w.solutes.iter().map(|x| x.solute.as_str()).collect();
+            let rows = self
+                .waste
+                .by_section
+                .iter()
+                .map(|s| {
+                    let mut row = vec![
+                        s.section.clone(),
+                        s.date.clone(),
+                        format!("{:.0}", s.figures.spent_mixture_ml),
+                        format!("{:.0}", s.figures.leftover_total_ml),
+                    ];
+                    row.extend(w.solutes.iter().map(|x| {
+                        let g: f64 = s
+                            .figures
+                            .solutes
+                            .iter()
+                            .filter(|y| y.solute == x.solute && y.stock == x.stock)
+                            .map(|y| y.grams)
+                            .sum();
+                        format!("{g:.3}")
+                    }));
+                    row
+                })
+                .collect();
+            let mut cells = headers(&["section", "date", "spent (mL)", "left-over (mL)"]);
+            cells.extend(solutes.iter().map(|f| format!("{f} (g)")));
+            let mut align = vec![Align::Right; cells.len()];
+            align[0] = Align::Left;
+            align[1] = Align::Left;
+            sec.para("By section (each batch's left-over goes with the last section it serves, after which it is discarded):");
+            sec.push(Block::Table(Table::with_align(cells, align, rows)));
+        }
         sec.para("Everything made up ends as waste, in the spent mixtures or the left-over stock: collect both as your local rules require (a bromate or persulfate mixture is oxidising; bromate is a suspected carcinogen), never assume the drain is allowed, and ask your institution's safety officer.");
         sec
     }

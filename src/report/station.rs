@@ -122,10 +122,14 @@ pub(super) fn tray(lab: &Lab, totals: &Totals, replicates: u32) -> Vec<TrayItem>
         dead_volume_ml: ml(dead),
         fill_ml: ml(use_ * (1.0 + overage) + dead),
     };
+    // One line per stock: a stock made in batches (lab sections) has one total per batch,
+    // but the same tray at every station.
     let mut out: Vec<TrayItem> = totals
         .stocks
         .iter()
-        .map(|t| {
+        .enumerate()
+        .filter(|(i, t)| !totals.stocks[..*i].iter().any(|u| u.stock == t.stock))
+        .map(|(_, t)| {
             item(
                 lab.stocks[t.stock].name.clone(),
                 t.per_station_set * replicates as f64,

@@ -26,19 +26,68 @@ pub struct StockSheet {
     pub balance_stated: bool,
     /// Masses under 100 readabilities of the balance, with the alternatives.
     pub small_masses: Vec<SmallMassReport>,
-    /// What the lab leaves for the waste bottle.
+    /// What the lab leaves for the waste bottle: the week's totals and each section's.
     pub waste: WasteReport,
-    /// One line per stock to make, to tick off with the date and initials.
+    /// The lab sections (`[[section]]`), in date order; empty for a one-section spec.
+    pub sections: Vec<SectionReport>,
+    /// The make-up schedule, day by day (empty for a one-section spec): what to make that
+    /// day, what is used from an earlier day's batch, and what to fetch for it.
+    pub schedule: Vec<ScheduleDay>,
+    /// One line per batch to make, to tick off with the date and initials.
     pub checklist: Vec<CheckItem>,
-    /// What to fetch from the store: each solid or reagent with its total.
+    /// What to fetch from the store for the whole week: each solid or reagent with its total.
     pub fetch: Vec<FetchItem>,
     pub cautions: Vec<String>,
 }
 
-/// A stock to make, on the checklist.
+/// A lab section as the stocks sheet names it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SectionReport {
+    pub name: String,
+    pub date: String,
+    pub weekday: String,
+    pub stations: u32,
+    pub replicates: u32,
+}
+
+/// A day of the make-up schedule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScheduleDay {
+    pub date: String,
+    /// "Mon".
+    pub weekday: String,
+    pub sections: Vec<String>,
+    /// The batches made up this day.
+    pub make: Vec<ScheduleMake>,
+    /// Stocks this day's sections use from a batch made on an earlier day.
+    pub from_earlier: Vec<ScheduleMake>,
+    /// What to fetch from the store for this day's batches.
+    pub fetch: Vec<FetchItem>,
+}
+
+/// A batch on the schedule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScheduleMake {
+    pub stock: String,
+    /// The flasks, e.g. "1 x 500 mL + 1 x 50 mL".
+    pub flasks: String,
+    /// mL made up in them.
+    #[serde(rename = "made_mL")]
+    pub made_ml: f64,
+    pub made_on: String,
+    /// The last date it may be used (null when the reagent data has no entry).
+    pub use_by: Option<String>,
+}
+
+/// A batch of a stock to make, on the checklist.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CheckItem {
     pub stock: String,
+    /// The planned day of making (null for a one-section spec) and the sections it serves.
+    pub made_on: Option<String>,
+    pub for_sections: Vec<String>,
+    /// The last date it may be used, from the planned day (null without sections or data).
+    pub use_by_date: Option<String>,
     /// The flasks, e.g. "1 x 1000 mL + 1 x 250 mL".
     pub flasks: String,
     /// What to weigh, measure or dilute with.
@@ -72,9 +121,28 @@ pub struct FlaskUse {
     pub amount: Option<f64>,
 }
 
-/// The lab's waste: spent mixtures, left-over stock, and the solutes in them.
+/// The lab's waste: the week's figures (for a one-section spec, the lab's), and each
+/// section's when the spec has sections.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct WasteReport {
+    #[serde(flatten)]
+    pub week: WasteFigures,
+    pub by_section: Vec<SectionWaste>,
+}
+
+/// One section's waste: its spent mixtures, and the batches discarded after it (a batch is
+/// discarded after the last section it serves).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SectionWaste {
+    pub section: String,
+    pub date: String,
+    #[serde(flatten)]
+    pub figures: WasteFigures,
+}
+
+/// Spent mixtures, left-over stock, and the solutes in them.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WasteFigures {
     /// Every trial's mixture, mL.
     #[serde(rename = "spent_mixture_mL")]
     pub spent_mixture_ml: f64,
@@ -159,9 +227,14 @@ fn concentrate_toml(st: &crate::spec::Stock, name: &str, factor: f64) -> String 
     out
 }
 
+/// One batch of a stock: a one-section spec has one per stock; with sections, a stock made
+/// fresh on the day has one per day it is used, a stable one a single batch.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StockPrep {
     pub name: String,
+    /// The planned day of making (null for a one-section spec), and the sections it serves.
+    pub made_on: Option<String>,
+    pub for_sections: Vec<String>,
     /// Relative standard uncertainty (k = 1) of its concentration, percent, and its basis.
     pub uncertainty_pct: f64,
     pub uncertainty_basis: String,
@@ -215,7 +288,8 @@ pub fn build_stocks(
     preps: &[crate::lab::recipes::Preparation],
     dominant: &[(usize, Vec<String>)],
     small: &[crate::lab::recipes::SmallMass],
-    waste: &crate::lab::waste::Waste,
+    waste: &crate::lab::waste::WeekWaste,
+    week: &crate::lab::schedule::Week,
 ) -> StockSheet {
     let mut advice: Vec<String> = dominant
         .iter()
@@ -232,6 +306,18 @@ pub fn build_stocks(
         .collect();
     use crate::lab::recipes::Action;
     use crate::spec::Recipe;
+    let made_on = |p: &Preparation| week.days[p.days[0]].date;
+    let sections_of = |p: &Preparation| -> Vec<String> {
+        p.days
+            .iter()
+            .flat_map(|&d| &week.days[d].groups)
+            .filter_map(|&g| week.groups[g].name.clone())
+            .collect()
+    };
+    let use_by_date = |p: &Preparation| -> Option<time::Date> {
+        let keeps = crate::lab::schedule::keeps_days(lab, p.stock)?;
+        made_on(p)?.checked_add(time::Duration::days(keeps as i64))
+    };
     let stocks = preps
         .iter()
         .map(|p| {
@@ -312,6 +398,8 @@ pub fn build_stocks(
             let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
             StockPrep {
                 name: st.name.clone(),
+                made_on: made_on(p).map(crate::spec::date_text),
+                for_sections: sections_of(p),
                 uncertainty_pct: sig10(st.uncertainty * 100.0),
                 uncertainty_basis: st.uncertainty_basis.clone(),
                 solute: st.solute.clone(),
@@ -400,48 +488,34 @@ pub fn build_stocks(
             }
         })
         .collect();
-    let leftover: Vec<LeftoverReport> = waste
-        .leftover
-        .iter()
-        .map(|(s, l)| LeftoverReport {
-            stock: lab.stocks[*s].name.clone(),
-            ml: ml(*l),
-        })
-        .collect();
     let waste = WasteReport {
-        spent_mixture_ml: ml(waste.spent),
-        leftover_total_ml: ml(waste.leftover.iter().map(|x| x.1).sum()),
-        leftover,
-        solutes: waste
-            .solutes
-            .iter()
-            .map(|(s, g)| {
-                let st = &lab.stocks[*s];
-                let species: Vec<&str> = st.contains.iter().map(|(x, _)| x.as_str()).collect();
-                WasteSolute {
-                    stock: st.name.clone(),
-                    solute: st.solute.clone().unwrap_or_default(),
-                    grams: sig10(*g),
-                    hazard_codes: crate::reference::reagents::reagent_for(
-                        st.solute.as_deref(),
-                        &species,
-                    )
-                    .map(|r| r.ghs.clone())
-                    .unwrap_or_default(),
-                }
-            })
-            .collect(),
+        week: waste_figures(lab, &waste.week),
+        by_section: if week.dated() {
+            waste
+                .sections
+                .iter()
+                .zip(&week.groups)
+                .map(|(w, g)| SectionWaste {
+                    section: g.name.clone().unwrap_or_default(),
+                    date: week.days[g.day]
+                        .date
+                        .map(crate::spec::date_text)
+                        .unwrap_or_default(),
+                    figures: waste_figures(lab, w),
+                })
+                .collect()
+        } else {
+            Vec::new()
+        },
     };
     let mut checklist = Vec::new();
-    let mut fetch: Vec<FetchItem> = Vec::new();
     for p in preps {
         let st = &lab.stocks[p.stock];
-        let species: Vec<&str> = st.contains.iter().map(|(x, _)| x.as_str()).collect();
-        let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
-        let keeps_days = reagent.map(|r| r.keeps_days);
+        let keeps_days = crate::lab::schedule::keeps_days(lab, p.stock);
         let use_by = match keeps_days {
             Some(0) => "on the day made".to_string(),
             Some(d) => format!("{d} days after making"),
+            None if week.dated() => "as your method says (planned fresh each day)".to_string(),
             None => "as your method says".to_string(),
         };
         let with = match &p.action {
@@ -455,11 +529,125 @@ pub fn build_stocks(
         };
         checklist.push(CheckItem {
             stock: st.name.clone(),
+            made_on: made_on(p).map(crate::spec::date_text),
+            for_sections: sections_of(p),
+            use_by_date: use_by_date(p).map(crate::spec::date_text),
             flasks: p.flasks.label(),
             with,
             keeps_days,
             use_by,
         });
+    }
+    let fetch = fetch_list(lab, preps.iter());
+    let schedule: Vec<ScheduleDay> = week
+        .days
+        .iter()
+        .enumerate()
+        .filter_map(|(d, day)| {
+            let date = day.date?;
+            let item = |p: &Preparation| ScheduleMake {
+                stock: lab.stocks[p.stock].name.clone(),
+                flasks: p.flasks.label(),
+                made_ml: ml(p.flasks.total()),
+                made_on: made_on(p).map(crate::spec::date_text).unwrap_or_default(),
+                use_by: use_by_date(p).map(crate::spec::date_text),
+            };
+            Some(ScheduleDay {
+                date: crate::spec::date_text(date),
+                weekday: crate::spec::day_text(date)[..3].to_string(),
+                sections: day
+                    .groups
+                    .iter()
+                    .filter_map(|&g| week.groups[g].name.clone())
+                    .collect(),
+                make: preps.iter().filter(|p| p.days[0] == d).map(item).collect(),
+                from_earlier: preps
+                    .iter()
+                    .filter(|p| p.days[0] != d && p.days.contains(&d))
+                    .map(item)
+                    .collect(),
+                fetch: fetch_list(lab, preps.iter().filter(|p| p.days[0] == d)),
+            })
+        })
+        .collect();
+    let sections = spec
+        .sections
+        .iter()
+        .map(|s| SectionReport {
+            name: s.name.clone(),
+            date: s.date_text(),
+            weekday: crate::spec::day_text(s.date)[..3].to_string(),
+            stations: s.stations,
+            replicates: s.replicates,
+        })
+        .collect();
+    StockSheet {
+        format: STOCKS_FORMAT,
+        title: spec.title.clone(),
+        spec: spec.source.name.clone(),
+        stations: spec.stations,
+        replicates: spec.replicates,
+        overage_pct: sig10(lab.overage * 100.0),
+        stocks,
+        advice,
+        balance: lab.balance,
+        balance_stated: lab.balance_stated,
+        small_masses,
+        waste,
+        sections,
+        schedule,
+        checklist,
+        fetch,
+        cautions: reagents::cautions(used),
+    }
+}
+
+use crate::lab::recipes::Preparation;
+
+/// The waste figures of a section or the week, with the stocks' names and hazard codes.
+fn waste_figures(lab: &Lab, w: &crate::lab::waste::Waste) -> WasteFigures {
+    let leftover: Vec<LeftoverReport> = w
+        .leftover
+        .iter()
+        .map(|(s, l)| LeftoverReport {
+            stock: lab.stocks[*s].name.clone(),
+            ml: ml(*l),
+        })
+        .collect();
+    WasteFigures {
+        spent_mixture_ml: ml(w.spent),
+        leftover_total_ml: ml(w.leftover.iter().map(|x| x.1).sum()),
+        leftover,
+        solutes: w
+            .solutes
+            .iter()
+            .map(|x| {
+                let st = &lab.stocks[x.stock];
+                let species: Vec<&str> = st.contains.iter().map(|(y, _)| y.as_str()).collect();
+                WasteSolute {
+                    stock: st.name.clone(),
+                    solute: x.formula.clone(),
+                    grams: sig10(x.grams),
+                    hazard_codes: crate::reference::reagents::reagent_for(
+                        st.solute.as_deref(),
+                        &species,
+                    )
+                    .map(|r| r.ghs.clone())
+                    .unwrap_or_default(),
+                }
+            })
+            .collect(),
+    }
+}
+
+/// The solids and reagents to fetch for some batches: each with its total (assay included).
+fn fetch_list<'a>(lab: &Lab, preps: impl Iterator<Item = &'a Preparation>) -> Vec<FetchItem> {
+    use crate::lab::recipes::Action;
+    let mut fetch: Vec<FetchItem> = Vec::new();
+    for p in preps {
+        let st = &lab.stocks[p.stock];
+        let species: Vec<&str> = st.contains.iter().map(|(x, _)| x.as_str()).collect();
+        let reagent = crate::reference::reagents::reagent_for(st.solute.as_deref(), &species);
         let (item, grams, volume) = match &p.action {
             Action::Weigh { grams_per_l } => (
                 st.solute.clone().unwrap_or_default(),
@@ -482,7 +670,9 @@ pub fn build_stocks(
             Some(f) => {
                 f.grams = f.grams.zip(grams).map(|(a, b)| a + b).or(f.grams);
                 f.ml = f.ml.zip(volume).map(|(a, b)| a + b).or(f.ml);
-                f.for_stocks.push(st.name.clone());
+                if !f.for_stocks.contains(&st.name) {
+                    f.for_stocks.push(st.name.clone());
+                }
             }
             None => fetch.push(FetchItem {
                 item,
@@ -498,21 +688,5 @@ pub fn build_stocks(
         f.grams = f.grams.map(sig10);
         f.ml = f.ml.map(sig10);
     }
-    StockSheet {
-        format: STOCKS_FORMAT,
-        title: spec.title.clone(),
-        spec: spec.source.name.clone(),
-        stations: spec.stations,
-        replicates: spec.replicates,
-        overage_pct: sig10(lab.overage * 100.0),
-        stocks,
-        advice,
-        balance: lab.balance,
-        balance_stated: lab.balance_stated,
-        small_masses,
-        waste,
-        checklist,
-        fetch,
-        cautions: reagents::cautions(used),
-    }
+    fetch
 }

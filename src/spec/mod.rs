@@ -16,6 +16,7 @@ pub mod presets;
 mod prior;
 mod raw;
 mod reaction;
+mod sections;
 pub mod starter;
 mod stocks;
 
@@ -87,6 +88,8 @@ pub mod limits {
     pub const DEVICES: usize = 100;
     /// Characters in a name (title, stock, device, run).
     pub const NAME_CHARS: usize = 200;
+    /// `[[section]]`s in one spec.
+    pub const SECTIONS: usize = 100;
     /// Trials in a times CSV.
     pub const TRIALS: usize = 20_000;
 }

@@ -251,6 +251,40 @@ pub struct Spec {
     pub prior: Option<Prior>,
     /// The `[design]` table, when given.
     pub design: Option<Design>,
+    /// The `[[section]]`s in date order (spec order within a day); empty for a one-section
+    /// spec, which `stations` and `replicates` describe. With sections, `stations` and
+    /// `replicates` are the largest of them (one station's glassware and cards).
+    pub sections: Vec<Section>,
+}
+
+/// A lab section: the spec's runs taught to one group on one day.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Section {
+    pub name: String,
+    pub date: time::Date,
+    pub stations: u32,
+    pub replicates: u32,
+    /// The room's temperature that day, K (else the spec's).
+    pub temperature: Option<f64>,
+    pub span: Range<usize>,
+}
+
+impl Section {
+    /// "2026-12-07".
+    pub fn date_text(&self) -> String {
+        date_text(self.date)
+    }
+}
+
+/// A date as year-month-day, "2026-12-07".
+pub fn date_text(d: time::Date) -> String {
+    format!("{:04}-{:02}-{:02}", d.year(), d.month() as u8, d.day())
+}
+
+/// A date with its weekday, "Mon 2026-12-07".
+pub fn day_text(d: time::Date) -> String {
+    let w = d.weekday().to_string();
+    format!("{} {}", &w[..3], date_text(d))
 }
 
 /// Readability (g) assumed when `[plan] balance` is not given: the two-decimal top-loading

@@ -50,7 +50,16 @@ impl Checker<'_> {
             stock_uncertainty: self.stock_uncertainty(plan)?,
             balance: self.balance(plan)?,
         };
-        let temperature = self.temperature(plan)?;
+        let temperature = self.temperature(&plan.temperature)?;
+        let sections = self.sections(&raw, replicates, temperature)?;
+        let (stations, replicates) = match sections
+            .iter()
+            .map(|s| (s.stations, s.replicates))
+            .reduce(|a, b| (a.0.max(b.0), a.1.max(b.1)))
+        {
+            Some(most) => most,
+            None => (stations, replicates),
+        };
         let shelf = self.shelf(&raw)?;
         let stocks = self.stocks(&raw, &shelf, settings.stock_uncertainty)?;
         // A forecast needs no stocks; when a forecast-only spec lists none, species are not
@@ -135,6 +144,7 @@ impl Checker<'_> {
             lab,
             prior,
             design,
+            sections,
         })
     }
 
@@ -197,8 +207,8 @@ impl Checker<'_> {
         })
     }
 
-    fn temperature(&self, plan: &RawPlan) -> Result<Option<f64>> {
-        Ok(match &plan.temperature {
+    pub(super) fn temperature(&self, temperature: &Option<Q>) -> Result<Option<f64>> {
+        Ok(match temperature {
             None => None,
             Some(q) => {
                 let t = self.qty(q, Kind::Temperature, "temperature")?;

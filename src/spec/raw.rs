@@ -84,6 +84,46 @@ pub(crate) struct RawSpec {
     pub(crate) reaction: Option<Spanned<RawReaction>>,
     #[schemars(with = "Option<RawDesign>")]
     pub(crate) design: Option<Spanned<RawDesign>>,
+    /// Lab sections taught the same runs, each on its day.
+    #[serde(default)]
+    #[schemars(with = "Vec<RawSection>")]
+    pub(crate) section: Vec<Spanned<RawSection>>,
+}
+
+/// A `[[section]]`: one group taught the same runs on one day.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawSection {
+    #[schemars(with = "String")]
+    pub(crate) name: Name,
+    /// The day it meets, year-month-day: "2026-12-07" (a bare TOML date works too).
+    #[schemars(with = "SectionDate")]
+    pub(crate) date: Spanned<Value>,
+    #[schemars(with = "i64")]
+    pub(crate) stations: Spanned<i64>,
+    /// Trials of every run at each station; default [plan] replicates.
+    #[schemars(with = "Option<i64>")]
+    pub(crate) replicates: Option<Spanned<i64>>,
+    /// The room's temperature that day; default [plan] temperature.
+    #[schemars(with = "Option<Quantity>")]
+    pub(crate) temperature: Option<Q>,
+}
+
+/// How a section's date is written: "2026-12-07".
+pub(crate) struct SectionDate;
+
+impl JsonSchema for SectionDate {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "SectionDate".into()
+    }
+
+    fn json_schema(_: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        schemars::json_schema!({
+            "description": "the day the section meets, year-month-day, e.g. \"2026-12-07\"",
+            "type": "string",
+            "pattern": "^[0-9]{4}-[0-9]{2}-[0-9]{2}$"
+        })
+    }
 }
 
 #[derive(Debug, Deserialize, JsonSchema)]

@@ -12,6 +12,7 @@ use std::path::{Path, PathBuf};
 pub const BROMATE: &str = include_str!("../../plans/maple-hollow-bromate.toml");
 pub const PERSULFATE: &str = include_str!("../../plans/quarry-lane-persulfate.toml");
 pub const PEROXIDE: &str = include_str!("../../plans/willow-creek-peroxide-forecast.toml");
+pub const WEEK: &str = include_str!("../../plans/birchfield-two-sections.toml");
 
 /// What one run of the binary gave.
 pub struct Outcome {
