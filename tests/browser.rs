@@ -36,6 +36,10 @@ fn main() {
             cards_print_on_both_papers_without_splitting_or_overflowing,
         ),
         ("names_print_as_text", names_print_as_text),
+        (
+            "labels_of_a_week_fit_their_grid_on_both_papers",
+            labels_of_a_week_fit_their_grid_on_both_papers,
+        ),
     ];
     let trials = tests
         .into_iter()
@@ -117,19 +121,26 @@ fn page_text(pdf: &Path, page: usize) -> String {
 /// Load the HTML in the browser with a script that compares every card's content height with
 /// its box, and read the verdict back from the dumped DOM.
 fn overflowing_cards(html: &Path, browser: &Path) -> String {
+    overflowing(html, browser, "card", "cards")
+}
+
+/// As [`overflowing_cards`], for the boxes of any class (`label` for bottle labels).
+fn overflowing(html: &Path, browser: &Path, class: &str, tag: &str) -> String {
     let text = std::fs::read_to_string(html).unwrap();
     let probe = r#"<script>
 var bad = [];
-document.querySelectorAll('.card').forEach(function (c, i) {
+document.querySelectorAll('.CLASS').forEach(function (c, i) {
   if (c.scrollHeight > c.clientHeight + 1 || c.scrollWidth > c.clientWidth + 1) bad.push(i + 1);
 });
 var n = document.createElement('div'); n.id = 'verdict';
-n.textContent = 'cards=' + document.querySelectorAll('.card').length + ' overflow=' + bad.join(',');
+n.textContent = 'TAG=' + document.querySelectorAll('.CLASS').length + ' overflow=' + bad.join(',');
 document.body.appendChild(n);
-</script></body>"#;
+</script></body>"#
+        .replace("CLASS", class)
+        .replace("TAG", tag);
     let dir = tempfile::tempdir().unwrap();
     let probed = dir.path().join("probe.html");
-    std::fs::write(&probed, text.replace("</body>", probe)).unwrap();
+    std::fs::write(&probed, text.replace("</body>", &probe)).unwrap();
     let out = process::Command::new(browser)
         .args(clockprep::export::pdf::HEADLESS)
         .arg(format!(
@@ -246,4 +257,51 @@ fn names_print_as_text() {
     assert!(!html.contains("<script>alert"));
     // The run's name prints as text on its card (after the set-up card).
     assert!((1..=pdf_pages(&pdf)).any(|p| page_text(&pdf, p).contains("<script>alert(1)</script>")));
+}
+
+/// The bottle labels of the two-section demo (a label per flask of every batch, with the
+/// planned day and use-by date) on both label-sheet grids: every label's text fits its box
+/// (`overflow: hidden` would otherwise hide it), the PDF has the grid's page count and every
+/// label's caution line.
+fn labels_of_a_week_fit_their_grid_on_both_papers() {
+    let browser = browser();
+    let dir = tempfile::tempdir().unwrap();
+    let spec = "plans/birchfield-two-sections.toml";
+    let sheet = clockprep::stocks(clockprep::error::SpecSource::new(
+        spec,
+        std::fs::read_to_string(spec).unwrap(),
+    ))
+    .unwrap();
+    let labels: u32 = sheet.stocks.iter().map(|s| s.flask_count.max(1)).sum();
+    for (paper, per_page) in [("a4", 24), ("letter", 10)] {
+        let html = dir.path().join(format!("labels-{paper}.html"));
+        let pdf = dir.path().join(format!("labels-{paper}.pdf"));
+        Command::cargo_bin("clockprep")
+            .unwrap()
+            .arg("labels")
+            .arg(spec)
+            .args(["--paper", paper, "-o"])
+            .arg(&html)
+            .arg("--pdf")
+            .arg(&pdf)
+            .assert()
+            .code(0);
+        let what = format!("labels on {paper}");
+        assert_eq!(
+            overflowing(&html, &browser, "label", "labels"),
+            format!("labels={labels} overflow="),
+            "{what}"
+        );
+        assert_eq!(
+            pdf_pages(&pdf),
+            (labels as usize).div_ceil(per_page),
+            "{what}"
+        );
+        let text: String = (1..=pdf_pages(&pdf)).map(|p| page_text(&pdf, p)).collect();
+        assert_eq!(
+            text.matches("local rules apply").count(),
+            labels as usize,
+            "{what}: every label carries the cautions"
+        );
+    }
 }

@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{run_with, BROMATE, PEROXIDE};
+use common::{run_with, BROMATE, PEROXIDE, WEEK};
 use std::collections::BTreeSet;
 
 const README: &str = include_str!("../README.md");
@@ -100,6 +100,11 @@ fn documents() -> Vec<serde_json::Value> {
         .output()
         .unwrap();
     docs.push(serde_json::from_slice(&fit2.stdout).expect("two-term fit JSON"));
+    // Lab sections: the fields only a spec with sections fills in.
+    for command in ["plan", "stocks"] {
+        let o = run_with(command, WEEK, &[], &["-f", "json"]);
+        docs.push(serde_json::from_str(&o.stdout).expect("JSON output"));
+    }
     docs
 }
 
