@@ -1307,3 +1307,37 @@ fn waste_totals_follow_from_the_plan_by_hand() {
         max_relative = 1e-9
     );
 }
+
+#[test]
+fn dilutions_name_the_glassware_for_each_aliquot() {
+    // HCl 0.100 M from 1.00 M (×1/10) in 1000 + 250 + 50 mL flasks: aliquots of 100, 25 and
+    // 5 mL. The spec's 5 mL transfer pipet delivers 5 mL in one fill; 25 mL is one reading of
+    // the 50 mL buret; 100 mL is two buret fillings. Each is named where it is delivered.
+    let r = json(&run("stocks", BROMATE, &["-f", "json"]).stdout);
+    let text = stock(&r, "HCl 0.100 M")["recipe"]["text"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    assert!(
+        text.contains("Deliver 100.00 mL of 'HCl 1.00 M' (with the 50 mL buret + 50 mL buret)"),
+        "{text}"
+    );
+    assert!(
+        text.contains("25.00 mL in it (with the 50 mL buret)"),
+        "{text}"
+    );
+    assert!(
+        text.contains("5.00 mL in it (with the 5 mL transfer pipet)"),
+        "{text}"
+    );
+    let line = r["checklist"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["stock"] == "HCl 0.100 M")
+        .unwrap();
+    assert_eq!(
+        line["with"],
+        "aliquots 100 mL: with the 50 mL buret + 50 mL buret; 25 mL: with the 50 mL buret; 5 mL: with the 5 mL transfer pipet"
+    );
+}

@@ -363,7 +363,12 @@ pub fn build_stocks(
                     None,
                     amount,
                     Some(lab.stocks[*from].name.clone()),
-                    format!("Deliver {:.2} mL of '{}' into a {flask} and make up to the mark with water.", amount.unwrap_or(0.0), lab.stocks[*from].name),
+                    format!(
+                        "Deliver {:.2} mL of '{}' ({}) into a {flask} and make up to the mark with water.",
+                        amount.unwrap_or(0.0),
+                        lab.stocks[*from].name,
+                        aliquot_device(lab, amount.unwrap_or(0.0) * 1e-3)
+                    ),
                 ),
                 Action::AsUsual => ("as usual", None, None, None, format!("Make up in a {flask} as your method describes (no formula to compute from).")),
             };
@@ -376,10 +381,15 @@ pub fn build_stocks(
                     (0, _) if *n > 1 => text.push_str(&format!(" Make {n} such flasks.")),
                     (0, _) => {}
                     (_, Some(a)) => text.push_str(&format!(
-                        " Also make {n} x {} mL the same way, {} {unit} {}.",
+                        " Also make {n} x {} mL the same way, {} {unit} {}{}.",
                         sig10(f * 1e3),
                         if unit == "g" { format!("{a:.4}") } else { format!("{a:.2}") },
-                        if *n > 1 { "each" } else { "in it" }
+                        if *n > 1 { "each" } else { "in it" },
+                        if matches!(p.action, Action::Dilute { .. }) {
+                            format!(" ({})", aliquot_device(lab, a * 1e-3))
+                        } else {
+                            String::new()
+                        }
                     )),
                     (_, None) => text.push_str(&format!(" Also make {n} x {} mL.", sig10(f * 1e3))),
                 }
@@ -524,7 +534,18 @@ pub fn build_stocks(
                 "graduated cylinder or measuring pipet, in a fume cupboard; reagent into water"
                     .into()
             }
-            Action::Dilute { .. } => "volumetric pipet or buret for the aliquot".into(),
+            Action::Dilute { ml_per_l, .. } => {
+                let each: Vec<String> = p
+                    .flasks
+                    .0
+                    .iter()
+                    .map(|(f, _)| {
+                        let v = ml_per_l * f * 1e-3;
+                        format!("{} mL: {}", sig10(v * 1e3), aliquot_device(lab, v))
+                    })
+                    .collect();
+                format!("aliquots {}", each.join("; "))
+            }
             Action::AsUsual => "as your method describes".into(),
         };
         checklist.push(CheckItem {
@@ -603,6 +624,19 @@ pub fn build_stocks(
 }
 
 use crate::lab::recipes::Preparation;
+
+/// The glassware of the spec that delivers a dilution's aliquot (`volume` L) in at most two
+/// additions, as the bench would (volumetric pipets first); else the pipet to fetch.
+fn aliquot_device(lab: &Lab, volume: f64) -> String {
+    let all: Vec<usize> = (0..lab.devices.len()).collect();
+    match crate::reference::glassware::find_delivery_in_two(volume, &all, &lab.devices) {
+        Some(d) if !d.parts.is_empty() => format!("with the {}", d.describe(&lab.devices)),
+        _ => format!(
+            "with a {} mL volumetric pipet: no [[device]] of the spec delivers it",
+            sig10(volume * 1e3)
+        ),
+    }
+}
 
 /// The waste figures of a section or the week, with the stocks' names and hazard codes.
 fn waste_figures(lab: &Lab, w: &crate::lab::waste::Waste) -> WasteFigures {
