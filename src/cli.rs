@@ -47,6 +47,10 @@ pub enum Command {
         /// Output format.
         #[arg(short, long, value_enum, default_value_t = FormatArg::Text)]
         format: FormatArg,
+        /// Also print the sheet (as its HTML, schedule and checklist included) to this PDF
+        /// (needs Chromium); the --format output then goes only to --output.
+        #[arg(long)]
+        pdf: Option<PathBuf>,
         #[command(flatten)]
         write: WriteArgs,
     },
@@ -278,6 +282,19 @@ fn printed(
     spec: &Path,
     build: impl FnOnce() -> Result<(Vec<u8>, bool), Error>,
 ) -> Result<i32, Error> {
+    printed_as(write, pdf, spec, || {
+        build().map(|(html, flagged)| (html.clone(), html, flagged))
+    })
+}
+
+/// As [`printed`], for a document whose `--output` bytes (first) differ from the HTML that is
+/// printed (second).
+fn printed_as(
+    write: &WriteArgs,
+    pdf: Option<PathBuf>,
+    spec: &Path,
+    build: impl FnOnce() -> Result<(Vec<u8>, Vec<u8>, bool), Error>,
+) -> Result<i32, Error> {
     let target = write.target();
     let pdf_target = Target {
         path: pdf,
@@ -285,9 +302,9 @@ fn printed(
     };
     target.guard(&[spec])?;
     pdf_target.guard(&[spec])?;
-    let (html, flagged) = build()?;
+    let (out, html, flagged) = build()?;
     if target.path.is_some() || pdf_target.path.is_none() {
-        target.write(&html, &[spec])?;
+        target.write(&out, &[spec])?;
     }
     if pdf_target.path.is_some() {
         let browser = crate::export::pdf::find_browser().ok_or(Error::NoBrowser)?;
@@ -334,11 +351,22 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
         Command::Stocks {
             spec,
             format,
+            pdf,
             write,
-        } => guarded(&write, &[&spec], || {
-            let sheet = crate::stocks(read_spec(&spec)?)?;
-            Ok((export::export_stocks(&sheet, format.into()), false))
-        }),
+        } => match pdf {
+            None => guarded(&write, &[&spec], || {
+                let sheet = crate::stocks(read_spec(&spec)?)?;
+                Ok((export::export_stocks(&sheet, format.into()), false))
+            }),
+            Some(pdf) => printed_as(&write, Some(pdf), &spec, || {
+                let sheet = crate::stocks(read_spec(&spec)?)?;
+                Ok((
+                    export::export_stocks(&sheet, format.into()),
+                    export::export_stocks(&sheet, Format::Html),
+                    false,
+                ))
+            }),
+        },
         Command::Cards {
             spec,
             per,

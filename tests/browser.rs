@@ -40,6 +40,10 @@ fn main() {
             "labels_of_a_week_fit_their_grid_on_both_papers",
             labels_of_a_week_fit_their_grid_on_both_papers,
         ),
+        (
+            "the_stocks_sheet_prints_with_its_schedule_and_checklist",
+            the_stocks_sheet_prints_with_its_schedule_and_checklist,
+        ),
     ];
     let trials = tests
         .into_iter()
@@ -304,4 +308,43 @@ fn labels_of_a_week_fit_their_grid_on_both_papers() {
             "{what}: every label carries the cautions"
         );
     }
+}
+
+/// `clockprep stocks --pdf` prints the whole sheet: the make-up schedule, the checklist with a
+/// tick box per batch, the fetch lists, the waste by section and the cautions; the `-f json`
+/// output still goes to `-o`.
+fn the_stocks_sheet_prints_with_its_schedule_and_checklist() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = "plans/birchfield-two-sections.toml";
+    let pdf = dir.path().join("stocks.pdf");
+    let json = dir.path().join("stocks.json");
+    Command::cargo_bin("clockprep")
+        .unwrap()
+        .arg("stocks")
+        .arg(spec)
+        .args(["-f", "json", "-o"])
+        .arg(&json)
+        .arg("--pdf")
+        .arg(&pdf)
+        .assert()
+        .code(0);
+    let sheet: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let text: String = (1..=pdf_pages(&pdf)).map(|p| page_text(&pdf, p)).collect();
+    for heading in [
+        "Make-up schedule",
+        "Make-up checklist",
+        "Fetch from the store: the week",
+        "Waste: the week",
+        "safety officer",
+    ] {
+        assert!(text.contains(heading), "the PDF has no {heading:?}");
+    }
+    // pdftotext reads the box "[ ]" back as "[]".
+    let boxes = text.replace("[ ]", "[]").matches("[]").count();
+    assert_eq!(
+        boxes,
+        sheet["checklist"].as_array().unwrap().len(),
+        "a tick box per batch"
+    );
 }

@@ -13,6 +13,7 @@ h3 { font-size: 11pt; margin: 0.8em 0 0.2em 0; }
 table { border-collapse: collapse; margin: 0.3em 0 0.6em 0; }
 th, td { border: 1px solid #bbb; padding: 2px 6px; text-align: left; vertical-align: top; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
+td.w { white-space: nowrap; }
 p { margin: 0.25em 0; }
 .flag { color: #8b0000; font-weight: bold; }
 .instruction { font-weight: bold; margin: 0.5em 0; }
@@ -47,7 +48,7 @@ fn block(b: &Block) -> Markup {
                 @for r in &t.rows {
                     tr {
                         @for (c, a) in r.iter().zip(&t.align) {
-                            @if *a == Align::Right { td.n { (c) } } @else { td { (c) } }
+                            td class=[cell_class(c, *a)] { (c) }
                         }
                     }
                 }
@@ -96,4 +97,16 @@ pub fn render(page: &Page) -> Vec<u8> {
         super::typeset::document(&m.into_string(), super::typeset::Style::Html).into_bytes();
     out.push(b'\n');
     out
+}
+
+/// A cell's classes: `n` for a right-aligned (numeric) column, `w` for a short single token
+/// (a date, a number with no unit) that must not break at its hyphens.
+fn cell_class(cell: &str, align: Align) -> Option<&'static str> {
+    let whole = !cell.contains(' ') && cell.chars().count() <= 16;
+    match (align == Align::Right, whole) {
+        (true, true) => Some("n w"),
+        (true, false) => Some("n"),
+        (false, true) => Some("w"),
+        (false, false) => None,
+    }
 }
