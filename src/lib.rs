@@ -28,6 +28,8 @@ pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
+    // Weighed stocks' uncertainties from the masses actually weighed.
+    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
     let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
     report_of(&spec, lab, &solution, &uncertainty)
 }
@@ -37,6 +39,8 @@ pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, repor
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
+    // Weighed stocks' uncertainties from the masses actually weighed.
+    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
     // One propagation serves both sheets.
     let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
     Ok((
@@ -128,6 +132,8 @@ pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
     let spec = spec::load(source)?;
     let lab = spec.need_lab()?;
     let solution = solve::solve(&spec, lab)?;
+    // Weighed stocks' uncertainties from the masses actually weighed.
+    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
     let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
     Ok(stock_sheet(&spec, lab, &solution, &uncertainty))
 }
@@ -253,17 +259,20 @@ pub fn design(source: SpecSource) -> Result<report::DesignSheet> {
     let (errors, warnings): (Vec<_>, Vec<String>) = match &designed.lab {
         None => ((0..runs.len()).map(flat).collect(), Vec::new()),
         Some(lab) => match solve::solve(&designed, lab) {
-            Ok(sol) => (
-                sol.runs
-                    .iter()
-                    .enumerate()
-                    .map(|(i, r)| {
-                        lab::uncertainty::design_errors(&designed, lab, r)
-                            .unwrap_or_else(|| flat(i))
-                    })
-                    .collect(),
-                Vec::new(),
-            ),
+            Ok(sol) => {
+                let lab = &lab::weighing::with_weighed_masses(&designed, lab, &sol);
+                (
+                    sol.runs
+                        .iter()
+                        .enumerate()
+                        .map(|(i, r)| {
+                            lab::uncertainty::design_errors(&designed, lab, r)
+                                .unwrap_or_else(|| flat(i))
+                        })
+                        .collect(),
+                    Vec::new(),
+                )
+            }
             Err(e) => ((0..runs.len()).map(flat).collect(), vec![format!("the designed runs cannot all be made with these stocks and glassware ({}); assumed {} % volumetric error", e.message(), d.volumetric_error * 100.0)]),
         },
     };

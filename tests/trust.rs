@@ -1055,8 +1055,11 @@ fn design_names_the_shared_stock_that_floors_ln_k_and_following_the_advice_lower
     // The acid diluted from nominal 37 % reagent (u 1.2 %, H+ squared) is used by every station
     // from the same flask: more stations do not average it away, so design says to
     // standardize it. Following the advice (the titrated stock's uncertainty pasted back as
-    // the warning words it) is accepted, the warning goes and the pooled ln k tightens.
-    let before = json(&run("design", BROMATE, &["-f", "json"]).stdout);
+    // the warning words it) is accepted, the warning goes and the pooled ln k tightens. On an
+    // analytical balance, so the thiosulfate's weighing is not the larger share (see
+    // design_names_a_thiosulfate_weighed_on_a_top_loader_and_titrating_it_is_accepted).
+    let base = edit(BROMATE, "[plan]\n", "[plan]\nbalance = \"0.0001 g\"\n");
+    let before = json(&run("design", &base, &["-f", "json"]).stdout);
     assert_eq!(before["flagged"], false, "advice is not a flag");
     let warnings = before["advice"].as_array().unwrap();
     let advice = warnings
@@ -1086,7 +1089,7 @@ fn design_names_the_shared_stock_that_floors_ln_k_and_following_the_advice_lower
     let (p0, floor0) = pooled(&before, "ln k, orders fixed");
     assert!(floor0 * floor0 > 0.5 * p0 * p0);
     let titrated = edit(
-        BROMATE,
+        &base,
         "dilute_from = \"HCl 1.00 M\"",
         &format!("dilute_from = \"HCl 1.00 M\"\n{suggested}"),
     );
@@ -1339,5 +1342,73 @@ fn dilutions_name_the_glassware_for_each_aliquot() {
     assert_eq!(
         line["with"],
         "aliquots 100 mL: with the 50 mL buret + 50 mL buret; 25 mL: with the 50 mL buret; 5 mL: with the 5 mL transfer pipet"
+    );
+}
+
+#[test]
+fn a_weighed_stock_carries_the_rounding_of_its_balance() {
+    // Bromate demo: 0.1241 g of Na2S2O3·5H2O in its 500 mL flask. A weighing is two readings
+    // (tare, gross), each rounded to one readability d, rectangular (JCGM 100:2008 (GUM)
+    // 4.3.7): u = √2 · d/√12 / m. On the default 0.01 g balance 0.0040825/0.12409 = 3.29 %;
+    // with the flask's 0.046 % (ASTM E288 class A, from memory) 3.29 %. On an analytical
+    // balance (0.0001 g) the rounding is 0.033 %, under the 0.1 % floor: √(0.1² + 0.046²) =
+    // 0.11 %. KNO3 (5.0551 g, 0.081 %) is at the floor either way.
+    let u = |text: &str, name: &str| {
+        stock(&json(&run("stocks", text, &["-f", "json"]).stdout), name)["uncertainty_pct"]
+            .as_f64()
+            .unwrap()
+    };
+    let rounding = 2f64.sqrt() * 0.01 / 12f64.sqrt() / 0.1240857693;
+    approx::assert_relative_eq!(
+        u(BROMATE, "Na2S2O3 1.00 mM"),
+        100.0 * (rounding.powi(2) + 0.00046f64.powi(2)).sqrt(),
+        max_relative = 1e-6
+    );
+    let fine = edit(BROMATE, "[plan]\n", "[plan]\nbalance = \"0.0001 g\"\n");
+    approx::assert_relative_eq!(
+        u(&fine, "Na2S2O3 1.00 mM"),
+        100.0 * (0.001f64.powi(2) + 0.00046f64.powi(2)).sqrt(),
+        max_relative = 1e-6
+    );
+    approx::assert_relative_eq!(
+        u(BROMATE, "KNO3 0.500 M"),
+        100.0 * (0.001f64.powi(2) + 0.00046f64.powi(2)).sqrt(),
+        max_relative = 1e-6
+    );
+}
+
+#[test]
+fn design_names_a_thiosulfate_weighed_on_a_top_loader_and_titrating_it_is_accepted() {
+    // 0.12 g on a 0.01 g balance is 3.3 % (see above), and every station shares the flask:
+    // design names the thiosulfate. Its suggested uncertainty pasted into the stock is
+    // accepted, and the thiosulfate is no longer named.
+    let before = json(&run("design", BROMATE, &["-f", "json"]).stdout);
+    let advice: Vec<String> = before["advice"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|a| a.as_str().unwrap().to_string())
+        .collect();
+    let named = advice
+        .iter()
+        .find(|a| a.contains("'Na2S2O3 1.00 mM'"))
+        .unwrap_or_else(|| panic!("{advice:?}"));
+    let suggested = named.split("e.g. ").nth(1).unwrap().trim_end_matches('.');
+    let titrated = edit(
+        BROMATE,
+        "devices = [\"5 mL transfer pipet\"]",
+        &format!("devices = [\"5 mL transfer pipet\"]\n{suggested}"),
+    );
+    let after = run("design", &titrated, &["-f", "json"]);
+    assert_eq!(after.code, 0, "{}", after.stderr);
+    let after = json(&after.stdout);
+    assert!(
+        !after["advice"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|a| a.as_str().unwrap().contains("'Na2S2O3 1.00 mM'")),
+        "{}",
+        after["advice"]
     );
 }

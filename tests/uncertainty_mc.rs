@@ -52,6 +52,8 @@ fn first_order_agrees_with_monte_carlo() {
     .unwrap();
     let lab = spec.lab.as_ref().unwrap();
     let solution = clockprep::solve::solve(&spec, lab).unwrap();
+    // The stocks' uncertainties as the sheets use them: weighed ones from the masses weighed.
+    let lab = &clockprep::lab::weighing::with_weighed_masses(&spec, lab, &solution);
     let run = &solution.runs[0];
     let first = propagate(&spec, lab, run);
     let prior = spec.prior.as_ref().unwrap();
@@ -135,6 +137,7 @@ fn design_standard_errors_agree_with_monte_carlo_of_the_fits() {
     let designed = with_runs(&spec, &runs);
     let lab = designed.lab.as_ref().unwrap();
     let solution = clockprep::solve::solve(&designed, lab).unwrap();
+    let lab = &clockprep::lab::weighing::with_weighed_masses(&designed, lab, &solution);
     let prior = designed.prior.as_ref().unwrap();
     let reaction = &prior.reaction;
     let t_plan = prior.settings.temperature;

@@ -7,3 +7,4 @@ pub mod schedule;
 pub mod totals;
 pub mod uncertainty;
 pub mod waste;
+pub mod weighing;

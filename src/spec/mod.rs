@@ -22,7 +22,7 @@ mod stocks;
 
 pub use model::*;
 pub use prior::*;
-pub use stocks::RATIO_TOLERANCE;
+pub use stocks::{recipe_uncertainty, Balance, RATIO_TOLERANCE};
 
 use crate::error::{Result, SpecSource};
 use checker::{toml_error, Checker};

@@ -65,6 +65,9 @@ pub struct Stock {
     /// Relative standard uncertainty (k = 1) of its concentrations, and where it comes from.
     pub uncertainty: f64,
     pub uncertainty_basis: String,
+    /// Whether the uncertainty is the recipe's default (neither the stock nor `[plan]` gives
+    /// one): a weighed stock's is then recomputed from the mass actually weighed.
+    pub uncertainty_by_recipe: bool,
 }
 
 /// How a stock is made up in its volumetric flask.

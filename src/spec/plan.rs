@@ -61,7 +61,7 @@ impl Checker<'_> {
             None => (stations, replicates),
         };
         let shelf = self.shelf(&raw)?;
-        let stocks = self.stocks(&raw, &shelf, settings.stock_uncertainty)?;
+        let stocks = self.stocks(&raw, &shelf, &settings)?;
         // A forecast needs no stocks; when a forecast-only spec lists none, species are not
         // checked against them.
         if self.purpose == Purpose::Plan && stocks.is_empty() {
@@ -361,7 +361,12 @@ impl Checker<'_> {
         }
     }
 
-    fn stocks(&self, raw: &RawSpec, shelf: &Shelf, plan_u: Option<f64>) -> Result<Vec<Stock>> {
+    fn stocks(&self, raw: &RawSpec, shelf: &Shelf, settings: &LabSettings) -> Result<Vec<Stock>> {
+        let plan_u = settings.stock_uncertainty;
+        let balance = super::stocks::Balance {
+            readability: settings.balance.unwrap_or(super::model::DEFAULT_BALANCE),
+            flasks: &settings.flasks,
+        };
         let mut stocks: Vec<Stock> = Vec::new();
         for s in &raw.stock {
             let r = s.get_ref();
@@ -426,11 +431,12 @@ impl Checker<'_> {
                     "stated in the spec".to_string(),
                 ),
                 (None, Some(u)) => (u, "[plan] stock_uncertainty".to_string()),
-                (None, None) => super::stocks::recipe_uncertainty(&recipe, &stocks),
+                (None, None) => super::stocks::recipe_uncertainty(&recipe, &stocks, &balance),
             };
             stocks.push(Stock {
                 uncertainty,
                 uncertainty_basis,
+                uncertainty_by_recipe: r.uncertainty.is_none() && plan_u.is_none(),
                 recipe,
                 in_runs: r.in_runs.unwrap_or(true),
                 name,

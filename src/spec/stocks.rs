@@ -436,8 +436,8 @@ pub mod defaults {
     /// Making up to the mark in a class A volumetric flask: ASTM E288 (from memory) allows
     /// ±0.08 mL in 100 mL to ±0.30 mL in 1000 mL; the worst, read as rectangular, 0.046 %.
     pub const FLASK: f64 = 0.000_46;
-    /// Weighing a solid on an analytical balance with a mass of a thousand readabilities or
-    /// more (common practice).
+    /// Weighing a solid, the least allowed: buoyancy, drift and transfer losses when the
+    /// balance's readings are fine (common practice).
     pub const WEIGHING: f64 = 0.001;
     /// Measuring out a liquid concentrate or an aliquot of a stock with a class A transfer
     /// pipet or buret of 10 mL or more (from memory).
@@ -449,18 +449,58 @@ pub mod defaults {
     pub const BY_METHOD: f64 = 0.01;
 }
 
+/// The balance a stock is weighed on and the flasks it may be made up in.
+pub struct Balance<'a> {
+    /// Readability, g.
+    pub readability: f64,
+    /// The shelf's flask sizes, L.
+    pub flasks: &'a [f64],
+}
+
+impl Balance<'_> {
+    /// Relative standard uncertainty of weighing `grams_per_l` g/L into the smallest of
+    /// `flasks` it may be made up in (flasks whose mass is under 100 readabilities are not used
+    /// while a larger one holds enough; the solved plan passes the flasks actually chosen). A weighing is two readings, tare and gross,
+    /// each rounded to one readability d: u = √2 · d/√12 / m (rectangular rounding, JCGM
+    /// 100:2008 (GUM) 4.3.7 and F.2.2.1); never less than [`defaults::WEIGHING`].
+    pub fn weighing(&self, grams_per_l: f64) -> f64 {
+        let least = super::model::MIN_READABILITIES * self.readability;
+        let smallest = self
+            .flasks
+            .iter()
+            .copied()
+            .filter(|f| grams_per_l * f >= least)
+            .reduce(f64::min)
+            .or_else(|| self.flasks.iter().copied().reduce(f64::min))
+            .unwrap_or(1.0);
+        let mass = grams_per_l * smallest;
+        let rounding = 2f64.sqrt() * self.readability / 12f64.sqrt() / mass;
+        rounding.max(defaults::WEIGHING)
+    }
+}
+
 /// A stock's default relative uncertainty from how it is made, and a note of where it comes
 /// from. A dilution carries its source's uncertainty with the aliquot's and the flask's.
-pub fn recipe_uncertainty(recipe: &Recipe, earlier: &[Stock]) -> (f64, String) {
+pub fn recipe_uncertainty(recipe: &Recipe, earlier: &[Stock], balance: &Balance) -> (f64, String) {
     use defaults::*;
     let rss = |parts: &[f64]| parts.iter().map(|u| u * u).sum::<f64>().sqrt();
     match recipe {
-        Recipe::Weigh { purity, .. } => {
+        Recipe::Weigh {
+            purity,
+            concentration,
+            molar_mass,
+            ..
+        } => {
             // A label's assay is a minimum: the true purity lies between it and 100 %.
             let assay = (1.0 - purity).max(0.0) / 12f64.sqrt();
+            let weighing = balance.weighing(concentration * molar_mass / purity);
             (
-                rss(&[assay, WEIGHING, FLASK]),
-                "weighed solid: assay range, weighing and flask".into(),
+                rss(&[assay, weighing, FLASK]),
+                format!(
+                    "weighed solid: assay range, weighing on the {} g balance ({} %) and flask",
+                    (balance.readability * 1e9).round() / 1e9,
+                    crate::units::sig(weighing * 100.0, 2)
+                ),
             )
         }
         Recipe::Measure { .. } => (
@@ -478,5 +518,34 @@ pub fn recipe_uncertainty(recipe: &Recipe, earlier: &[Stock]) -> (f64, String) {
             )
         }
         _ => (BY_METHOD, "made by its own method: 1 % assumed".into()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn weighing_uncertainty_is_the_rounding_of_two_readings() {
+        // Two readings each rectangular over one readability d (JCGM 100:2008 (GUM) 4.3.7):
+        // u = √2 · d/√12 / m. 0.248 g/L in a 0.5 L flask on a 0.01 g balance: m = 0.124 g,
+        // under 100 readabilities in every flask of this shelf, so the smallest is taken.
+        let flasks = [0.05, 0.1, 0.5];
+        let b = Balance {
+            readability: 0.01,
+            flasks: &flasks,
+        };
+        let u = 2f64.sqrt() * 0.01 / 12f64.sqrt() / (0.248 * 0.05);
+        approx::assert_relative_eq!(b.weighing(0.248), u, max_relative = 1e-12);
+        // 20 g/L: 1 g in 50 mL is exactly 100 readabilities, the smallest flask allowed:
+        // 0.41 %.
+        let u = 2f64.sqrt() * 0.01 / 12f64.sqrt() / 1.0;
+        approx::assert_relative_eq!(b.weighing(20.0), u, max_relative = 1e-12);
+        // On an analytical balance the rounding is under the 0.1 % floor.
+        let fine = Balance {
+            readability: 0.0001,
+            flasks: &flasks,
+        };
+        assert_eq!(fine.weighing(20.0), defaults::WEIGHING);
     }
 }
