@@ -94,6 +94,12 @@ td.n {{ text-align: right; white-space: nowrap; }}
 .forecast {{ margin: 0.5mm 0 1mm 0; }}
 .flag {{ font-weight: bold; margin: 0.5mm 0; }}
 .record td {{ height: 6.5mm; }}
+table.inner {{ width: 100%; border-collapse: collapse; }}
+.record table.inner td, .record table.inner th {{ border: none; padding: 0 1.5mm 0.3mm 0; height: auto; vertical-align: top; }}
+.record table.inner th {{ text-align: left; font-weight: bold; }}
+table.inner td.dev {{ font-size: 9pt; }}
+.record td.box {{ width: 13mm; }}
+.expect {{ margin-top: 1mm; }}
 .cautions {{ margin-top: auto; border: 1pt solid #000; padding: 1mm 2mm; font-size: 9pt; }}
 .end {{ font-size: 9pt; text-align: right; color: #444; }}
 "#,
@@ -277,7 +283,12 @@ fn station_card(
     dec: usize,
 ) -> Markup {
     let items = |list: &[crate::report::PortionItem]| -> Markup {
-        html! { @for i in list { div { (i.stock) ": " strong { (format!("{:.dec$} mL", i.ml)) } " (" (i.device) ")" } } }
+        // Stock, volume (bold) and device in columns of their own.
+        html! {
+            @for i in list {
+                tr { td { (i.stock) } td.n { strong { (format!("{:.dec$} mL", i.ml)) } } td.dev { (i.device) } }
+            }
+        }
     };
     html! {
         div.card {
@@ -289,23 +300,27 @@ fn station_card(
                 div.station { "Station " (station) " of " (report.stations) }
             }
             table {
-                tr { th { "run" } th { "vessel A" } th { "vessel B" } th { "expected" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } th { "°C" } } }
+                tr { th { "run" } th { "vessel: stock, volume, device" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } th { "°C" } } }
                 @for (n, run) in runs {
                     tr.record {
                         td {
                             (n) ". " (run.name)
-                            @for f in run_flags(run) { div.flag { "check: " (f.code.replace('_', " ")) } }
-                        }
-                        td { (items(&run.portions.a)) }
-                        td { (items(&run.portions.b)) }
-                        td.n {
                             @if let Some(f) = &run.forecast {
                                 @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
-                                    strong { (stopwatch(t)) } br; "(" (two_figures(fast)) "–" (two_figures(slow)) ")"
-                                } @else { "-" }
-                            } @else { "-" }
+                                    div.expect { "expected " strong { (stopwatch(t)) } " (" (two_figures(fast)) "–" (two_figures(slow)) ")" }
+                                }
+                            }
+                            @for f in run_flags(run) { div.flag { "check: " (f.code.replace('_', " ")) } }
                         }
-                        @for _ in 1..=report.replicates { td {} td {} }
+                        td {
+                            table.inner {
+                                tr { th colspan="3" { "Vessel A" } }
+                                (items(&run.portions.a))
+                                tr { th colspan="3" { "Vessel B" } }
+                                (items(&run.portions.b))
+                            }
+                        }
+                        @for _ in 1..=report.replicates { td.box {} td.box {} }
                     }
                 }
             }
