@@ -251,7 +251,8 @@ impl Exporter for Csv {
         w.finish()
     }
 
-    /// One row per stock: what to make and how.
+    /// One row per batch of a stock: what to make, how, and its use-by (so each row is a line
+    /// of the make-up checklist).
     fn stocks(&self, sheet: &StockSheet) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
         let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
@@ -259,6 +260,7 @@ impl Exporter for Csv {
             "stock",
             "made_on",
             "for_sections",
+            "use_by",
             "solute",
             "molar_mass_g_per_mol",
             "need_mL",
@@ -272,11 +274,15 @@ impl Exporter for Csv {
             "instruction",
         ])
         .expect("writing to memory cannot fail");
-        for s in &sheet.stocks {
+        for (s, c) in sheet.stocks.iter().zip(&sheet.checklist) {
             w.write_record([
                 s.name.clone(),
                 s.made_on.clone().unwrap_or_default(),
                 s.for_sections.join(" "),
+                match &c.use_by_date {
+                    Some(d) => format!("{d} ({})", c.use_by),
+                    None => c.use_by.clone(),
+                },
                 s.solute.clone().unwrap_or_default(),
                 opt(s.molar_mass),
                 s.need_ml.to_string(),
@@ -297,16 +303,16 @@ impl Exporter for Csv {
         // `for_sections` and its date in `made_on`: spent mixture in `need_mL`, left-over stock
         // in `mL_per_flask`, each solute's grams in `grams_per_flask` with the solute in
         // `solute`), and `advice` (the sentence in `instruction`).
-        const N: usize = 14;
+        const N: usize = 15;
         let fetch_row = |f: &crate::report::FetchItem, kind: &str, day: &str| {
             let mut row = vec![String::new(); N];
             row[0] = f.item.clone();
             row[1] = day.to_string();
-            row[8] = kind.into();
-            row[9] = opt(f.grams);
-            row[10] = opt(f.ml);
-            row[12] = f.hazard_codes.join(" ");
-            row[13] = format!("for {}", f.for_stocks.join(", "));
+            row[9] = kind.into();
+            row[10] = opt(f.grams);
+            row[11] = opt(f.ml);
+            row[13] = f.hazard_codes.join(" ");
+            row[14] = format!("for {}", f.for_stocks.join(", "));
             row
         };
         for f in &sheet.fetch {
@@ -324,10 +330,10 @@ impl Exporter for Csv {
             row[0] = "spent mixture and left-over stock".into();
             row[1] = date.to_string();
             row[2] = section.to_string();
-            row[5] = fig.spent_mixture_ml.to_string();
-            row[8] = "waste".into();
-            row[10] = fig.leftover_total_ml.to_string();
-            row[13] =
+            row[6] = fig.spent_mixture_ml.to_string();
+            row[9] = "waste".into();
+            row[11] = fig.leftover_total_ml.to_string();
+            row[14] =
                 "waste: spent mixture (mL) in need_mL, left-over stock (mL) in mL_per_flask".into();
             w.write_record(row).expect("writing to memory cannot fail");
             for x in &fig.solutes {
@@ -335,11 +341,11 @@ impl Exporter for Csv {
                 row[0] = x.stock.clone();
                 row[1] = date.to_string();
                 row[2] = section.to_string();
-                row[3] = x.solute.clone();
-                row[8] = "waste".into();
-                row[9] = x.grams.to_string();
-                row[12] = x.hazard_codes.join(" ");
-                row[13] = "waste: g of the solute in spent mixture and left-over stock, in grams_per_flask".into();
+                row[4] = x.solute.clone();
+                row[9] = "waste".into();
+                row[10] = x.grams.to_string();
+                row[13] = x.hazard_codes.join(" ");
+                row[14] = "waste: g of the solute in spent mixture and left-over stock, in grams_per_flask".into();
                 w.write_record(row).expect("writing to memory cannot fail");
             }
         };
@@ -349,8 +355,8 @@ impl Exporter for Csv {
         }
         for a in &sheet.advice {
             let mut row = vec![String::new(); N];
-            row[8] = "advice".into();
-            row[13] = a.clone();
+            row[9] = "advice".into();
+            row[14] = a.clone();
             w.write_record(row).expect("writing to memory cannot fail");
         }
         w.into_inner().expect("writing to memory cannot fail")
