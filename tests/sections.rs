@@ -284,3 +284,38 @@ fn section_mistakes_are_refused_where_they_are() {
     );
     refuses("plan", WEEK, "stations = 5\n", "", "stations");
 }
+
+#[test]
+fn a_stock_past_its_keeping_days_gets_a_new_batch_and_one_day_shares_one() {
+    // Section 02 moved to the Tuesday after next (8 days on): iodide keeps 7 days, so it is
+    // made again; bromate (180 days) still once.
+    let later = edit(WEEK, "date = \"2026-12-09\"", "date = \"2026-12-15\"");
+    let s = json(&run("stocks", &later, &["-f", "json"]).stdout);
+    let days = |name: &str| -> Vec<String> {
+        batches(&s, name)
+            .iter()
+            .map(|b| b["made_on"].as_str().unwrap().to_string())
+            .collect()
+    };
+    assert_eq!(days("KI 0.0200 M"), ["2026-12-07", "2026-12-15"]);
+    assert_eq!(days("KBrO3 0.0400 M"), ["2026-12-07"]);
+    // Both sections on the Monday: one day, so thiosulfate is made once, for both.
+    let same = edit(WEEK, "date = \"2026-12-09\"", "date = \"2026-12-07\"");
+    let s = json(&run("stocks", &same, &["-f", "json"]).stdout);
+    let thio = batches(&s, "Na2S2O3 5.00 mM");
+    assert_eq!(thio.len(), 1);
+    assert_eq!(thio[0]["for_sections"], serde_json::json!(["01", "02"]));
+    assert_eq!(s["schedule"].as_array().unwrap().len(), 1);
+    // Its leftover is discarded after the last section of the day.
+    let by = s["waste"]["by_section"].as_array().unwrap();
+    assert!(!by[1]["leftover"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|l| l["stock"] != "Na2S2O3 5.00 mM"));
+    assert!(by[0]["leftover"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|l| l["stock"] != "Na2S2O3 5.00 mM"));
+}
