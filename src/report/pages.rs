@@ -201,9 +201,31 @@ impl PlanReport {
         let title = format!("Mixing sheet: {}", self.title);
         let mut head = Section::new(title.clone());
         head.para(format!("Spec: {}", self.spec));
+        let who = if self.sections.is_empty() {
+            format!(
+                "{} station(s) x {} replicate(s)",
+                self.stations, self.replicates
+            )
+        } else {
+            format!(
+                "{} lab sections ({})",
+                self.sections.len(),
+                self.sections
+                    .iter()
+                    .map(|x| format!(
+                        "{} {} {}: {} x {}",
+                        x.name, x.weekday, x.date, x.stations, x.replicates
+                    ))
+                    .collect::<Vec<_>>()
+                    .join("; ")
+            )
+        };
         let mut line = format!(
-            "Each run: {:.*} mL in two vessels | {} station(s) x {} replicate(s) | overage {} % | tolerance {} %",
-            dec, self.total_volume_ml, self.stations, self.replicates, sig(self.overage_pct, 3), sig(self.tolerance_pct, 2)
+            "Each run: {:.*} mL in two vessels | {who} | overage {} % | tolerance {} %",
+            dec,
+            self.total_volume_ml,
+            sig(self.overage_pct, 3),
+            sig(self.tolerance_pct, 2)
         );
         if let Some(t) = self.temperature_c {
             line.push_str(&format!(" | planned {t:.1} °C"));
