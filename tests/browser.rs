@@ -41,6 +41,10 @@ fn main() {
             labels_of_a_week_fit_their_grid_on_both_papers,
         ),
         (
+            "station_cards_of_a_week_follow_each_section",
+            station_cards_of_a_week_follow_each_section,
+        ),
+        (
             "the_stocks_sheet_prints_with_its_schedule_and_checklist",
             the_stocks_sheet_prints_with_its_schedule_and_checklist,
         ),
@@ -347,4 +351,61 @@ fn the_stocks_sheet_prints_with_its_schedule_and_checklist() {
         sheet["checklist"].as_array().unwrap().len(),
         "a tick box per batch"
     );
+}
+
+/// Station cards of the two-section demo: a set per station of each section (6 on Monday, 5
+/// on Wednesday), each headed with its section and day, with the expected times at the
+/// section's temperature; none overflows, on both papers.
+fn station_cards_of_a_week_follow_each_section() {
+    let browser = browser();
+    let dir = tempfile::tempdir().unwrap();
+    let spec = Path::new("plans/birchfield-two-sections.toml");
+    let report = clockprep::plan(clockprep::error::SpecSource::new(
+        "plans/birchfield-two-sections.toml",
+        std::fs::read_to_string(spec).unwrap(),
+    ))
+    .unwrap();
+    // 4 runs: a set-up card and two run cards (3 + 1 runs) per station, 11 stations.
+    let cards = (6 + 5) * 3;
+    assert_eq!(
+        clockprep::export::cards::pages(&report, clockprep::export::cards::Per::Station),
+        cards
+    );
+    let wed = &report.sections[1];
+    let reference = wed.runs[0].time_s.unwrap();
+    for paper in ["a4", "letter"] {
+        let (html, pdf) = print(spec, "station", paper, dir.path());
+        let what = format!("week station cards on {paper}");
+        assert_readable(&pdf, &what);
+        assert_eq!(pdf_pages(&pdf), cards, "{what}");
+        assert_eq!(
+            overflowing_cards(&html, &browser),
+            format!("cards={cards} overflow="),
+            "{what}"
+        );
+        let text: String = (1..=cards).map(|p| page_text(&pdf, p)).collect();
+        let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(
+            flat.contains("Section 02, Wed 2026-12-09 · Station 5 of 5"),
+            "{what}"
+        );
+        assert!(!flat.contains("Station 6 of 5"), "{what}");
+        assert!(flat.contains("at 22 °C"), "{what}");
+        // The Wednesday reference run's time as a stopwatch reads it (whole seconds).
+        assert!(
+            flat.contains(&format!("{:.0} s", reference)),
+            "{what}: no {reference} s"
+        );
+        // Run cards list each section's expected time, and still fit.
+        let (html, pdf) = print(spec, "run", paper, dir.path());
+        let what = format!("week run cards on {paper}");
+        assert_readable(&pdf, &what);
+        let runs = report.runs.len() + 1;
+        assert_eq!(
+            overflowing_cards(&html, &browser),
+            format!("cards={runs} overflow="),
+            "{what}"
+        );
+        assert!(page_text(&pdf, 2).contains("By section"), "{what}");
+    }
 }

@@ -155,4 +155,8 @@ fn two_section_week() {
         let html = String::from_utf8(clockprep::export::labels::labels(&sheet, paper)).unwrap();
         insta::assert_snapshot!(format!("week_labels_{p}"), html);
     }
+    // Station cards per section: each section's stations, its replicates, its forecast.
+    let r = report("plans/birchfield-two-sections.toml");
+    let html = String::from_utf8(cards(&r, Per::Station, Paper::Letter)).unwrap();
+    insta::assert_snapshot!("week_cards_station_letter", html);
 }

@@ -57,10 +57,52 @@ pub fn pages(report: &PlanReport, per: Per) -> usize {
     let cards = match per {
         Per::Run => 1 + report.runs.len(),
         Per::Station => {
-            report.stations as usize * (1 + report.runs.len().div_ceil(RUNS_PER_STATION_CARD))
+            sittings(report)
+                .iter()
+                .map(|s| s.stations as usize)
+                .sum::<usize>()
+                * (1 + report.runs.len().div_ceil(RUNS_PER_STATION_CARD))
         }
     };
     cards.div_ceil(per_page(report, per))
+}
+
+/// One meeting of the lab as the station cards see it: a lab section (its stations,
+/// replicates and forecast), or the whole plan for a one-section spec.
+struct Sitting<'a> {
+    section: Option<&'a crate::report::SectionForecast>,
+    stations: u32,
+    replicates: u32,
+}
+
+impl Sitting<'_> {
+    /// "Section 01, Mon 2026-12-07 · " before the station's number, or nothing.
+    fn label(&self) -> String {
+        self.section
+            .map(|s| format!("Section {}, {} {} · ", s.name, s.weekday, s.date))
+            .unwrap_or_default()
+    }
+}
+
+/// The sittings of a plan: each lab section, else the plan itself.
+fn sittings(report: &PlanReport) -> Vec<Sitting<'_>> {
+    if report.sections.is_empty() {
+        vec![Sitting {
+            section: None,
+            stations: report.stations,
+            replicates: report.replicates,
+        }]
+    } else {
+        report
+            .sections
+            .iter()
+            .map(|s| Sitting {
+                section: Some(s),
+                stations: s.stations,
+                replicates: s.replicates,
+            })
+            .collect()
+    }
 }
 
 fn style(paper: Paper, per_page: usize) -> String {
@@ -195,7 +237,13 @@ fn flag_lines(run: &RunReport) -> Markup {
 }
 
 /// What a station sets up before its first run: the glassware list and the tray.
-fn setup_card(report: &PlanReport, station: Option<u32>, card: usize, cards: usize) -> Markup {
+fn setup_card(
+    report: &PlanReport,
+    station: Option<(u32, &Sitting)>,
+    card: usize,
+    cards: usize,
+) -> Markup {
+    let replicates = station.map_or(report.replicates, |(_, s)| s.replicates);
     html! {
         div.card {
             div.head {
@@ -204,7 +252,7 @@ fn setup_card(report: &PlanReport, station: Option<u32>, card: usize, cards: usi
                     div.run { "Station set-up" }
                 }
                 div.station {
-                    @if let Some(s) = station { "Station " (s) " of " (report.stations) } @else { "Station ______" }
+                    @if let Some((n, s)) = station { (s.label()) "Station " (n) " of " (s.stations) } @else { "Station ______" }
                 }
             }
             div.vessels {
@@ -233,7 +281,7 @@ fn setup_card(report: &PlanReport, station: Option<u32>, card: usize, cards: usi
                 }
             }
             div.pour {
-                "Fill: every run × " (report.replicates) " trial(s), plus " (crate::report::words::sig(report.overage_pct, 3)) " % overage, plus what rinsing and filling the glassware takes. Label every bottle and device with the stock it holds; a buret keeps its stock for the whole lab."
+                "Fill: every run × " (replicates) " trial(s), plus " (crate::report::words::sig(report.overage_pct, 3)) " % overage, plus what rinsing and filling the glassware takes. Label every bottle and device with the stock it holds; a buret keeps its stock for the whole lab."
             }
             (cautions(report))
             div.end { "end of card " (card) }
@@ -263,6 +311,17 @@ fn run_card(
             div.vessels { (vessel_table("A", &run.portions.a, dec)) (vessel_table("B", &run.portions.b, dec)) }
             div.pour { "At t = 0 pour vessel " (first) " into vessel " (second) ", swirl, and start the timer at the moment of mixing." }
             (forecast_line(run))
+            @if !report.sections.is_empty() {
+                div.forecast {
+                    "By section: "
+                    (report.sections.iter().map(|s| {
+                        let t = s.runs[n - 1].time_s.map_or("no forecast".into(), stopwatch);
+                        let at = s.temperature_c.map(|c| format!(" at {c:.0} °C")).unwrap_or_default();
+                        format!("{} ({} {}){at}: {t}", s.name, s.weekday, s.date)
+                    }).collect::<Vec<_>>().join("; "))
+                    "."
+                }
+            }
             (flag_lines(run))
             table.record {
                 tr { th { "trial" } th { "time to colour (s)" } th { "temperature (°C)" } th { "initials" } }
@@ -276,12 +335,39 @@ fn run_card(
 
 fn station_card(
     report: &PlanReport,
-    station: u32,
+    (station, sitting): (u32, &Sitting),
     runs: &[(usize, &RunReport)],
     card: usize,
     cards: usize,
     dec: usize,
 ) -> Markup {
+    // The expected time at the section's temperature when the plan has sections, else at the
+    // plan's: (time, [fast, slow]).
+    let expected = |n: usize, run: &RunReport| -> Option<(f64, [f64; 2])> {
+        match sitting.section {
+            Some(s) => {
+                let r = &s.runs[n - 1];
+                r.time_s.zip(r.band_s)
+            }
+            None => run.forecast.as_ref().and_then(|f| f.time_s.zip(f.band_s)),
+        }
+    };
+    let flags = |n: usize, run: &RunReport| -> Vec<&'static str> {
+        match sitting.section {
+            Some(s) => run
+                .flags
+                .iter()
+                .chain(&s.runs[n - 1].flags)
+                .map(|f| f.code)
+                .collect(),
+            None => run_flags(run).iter().map(|f| f.code).collect(),
+        }
+    };
+    let temperature = sitting
+        .section
+        .and_then(|s| s.temperature_c)
+        .or(report.forecast_settings.as_ref().map(|s| s.temperature_c));
+    let half_band = report.forecast_settings.as_ref().map(|s| s.band_c);
     let items = |list: &[crate::report::PortionItem]| -> Markup {
         // Stock, volume (bold) and device in columns of their own.
         html! {
@@ -297,20 +383,18 @@ fn station_card(
                     div.plan { (report.title) " · card " (card) " of " (cards) }
                     div.run { "Bench card" }
                 }
-                div.station { "Station " (station) " of " (report.stations) }
+                div.station { (sitting.label()) "Station " (station) " of " (sitting.stations) }
             }
             table {
-                tr { th { "run" } th { "vessel: stock, volume, device" } @for t in 1..=report.replicates { th { "trial " (t) " (s)" } th { "°C" } } }
+                tr { th { "run" } th { "vessel: stock, volume, device" } @for t in 1..=sitting.replicates { th { "trial " (t) " (s)" } th { "°C" } } }
                 @for (n, run) in runs {
                     tr.record {
                         td {
                             (n) ". " (run.name)
-                            @if let Some(f) = &run.forecast {
-                                @if let (Some(t), Some([fast, slow])) = (f.time_s, f.band_s) {
-                                    div.expect { "expected " strong { (stopwatch(t)) } " (" (two_figures(fast)) "–" (two_figures(slow)) ")" }
-                                }
+                            @if let Some((t, [fast, slow])) = expected(*n, run) {
+                                div.expect { "expected " strong { (stopwatch(t)) } " (" (two_figures(fast)) "–" (two_figures(slow)) ")" }
                             }
-                            @for f in run_flags(run) { div.flag { "check: " (f.code.replace('_', " ")) } }
+                            @for f in flags(*n, run) { div.flag { "check: " (f.replace('_', " ")) } }
                         }
                         td {
                             table.inner {
@@ -320,15 +404,15 @@ fn station_card(
                                 (items(&run.portions.b))
                             }
                         }
-                        @for _ in 1..=report.replicates { td.box {} td.box {} }
+                        @for _ in 1..=sitting.replicates { td.box {} td.box {} }
                     }
                 }
             }
             div.pour { "For every run: at t = 0 pour vessel " (report.runs[0].portions.pour.replace(" into ", " into vessel ")) ", swirl, and start the timer at the moment of mixing." }
-            @if let (Some(s), Some(f)) = (&report.forecast_settings, runs.first().and_then(|(_, r)| r.forecast.as_ref())) {
+            @if let (Some(t), Some(b), true) = (temperature, half_band, runs.iter().any(|(n, r)| expected(*n, r).is_some())) {
                 div.forecast {
-                    "Expected: forecast time to colour at " (format!("{:.0}", s.temperature_c)) " °C, in brackets the range between "
-                    (format!("{:.0}", f.band_c[1])) " and " (format!("{:.0}", f.band_c[0])) " °C. Forecasts from a prior rate law, not guarantees."
+                    "Expected: forecast time to colour at " (format!("{t:.0}")) " °C, in brackets the range between "
+                    (format!("{:.0}", t + b)) " and " (format!("{:.0}", t - b)) " °C. Forecasts from a prior rate law, not guarantees."
                 }
             }
             (cautions(report))
@@ -364,14 +448,26 @@ pub fn cards_copies(report: &PlanReport, per: Per, paper: Paper, copies: usize) 
         Per::Station => {
             let chunks: Vec<&[(usize, &RunReport)]> =
                 numbered.chunks(RUNS_PER_STATION_CARD).collect();
-            let total = report.stations as usize * (chunks.len() + 1);
+            let sittings = sittings(report);
+            let total =
+                sittings.iter().map(|s| s.stations as usize).sum::<usize>() * (chunks.len() + 1);
             let mut k = 0;
-            for station in 1..=report.stations {
+            for (station, sitting) in sittings
+                .iter()
+                .flat_map(|s| (1..=s.stations).map(move |n| (n, s)))
+            {
                 k += 1;
-                cards.push(setup_card(report, Some(station), k, total));
+                cards.push(setup_card(report, Some((station, sitting)), k, total));
                 for chunk in &chunks {
                     k += 1;
-                    cards.push(station_card(report, station, chunk, k, total, dec));
+                    cards.push(station_card(
+                        report,
+                        (station, sitting),
+                        chunk,
+                        k,
+                        total,
+                        dec,
+                    ));
                 }
             }
         }

@@ -267,6 +267,9 @@ pub struct SectionForecast {
 pub struct SectionRun {
     pub run: String,
     pub time_s: Option<f64>,
+    /// Time to colour at the warm (fast) and cool (slow) ends of the band around the
+    /// section's temperature.
+    pub band_s: Option<[f64; 2]>,
     pub flags: Vec<Flag>,
 }
 
@@ -295,6 +298,9 @@ pub fn section_forecasts(spec: &Spec, forecasts: &[Forecast]) -> Vec<SectionFore
                     .map(|(r, run)| SectionRun {
                         run: run.name.clone(),
                         time_s: f.and_then(|f| f.runs[r].time()).map(sig10),
+                        band_s: f
+                            .and_then(|f| f.runs[r].band_times)
+                            .map(|(a, b)| [sig10(a), sig10(b)]),
                         flags: f.map(|f| f.runs[r].warnings.clone()).unwrap_or_default(),
                     })
                     .collect(),
