@@ -319,3 +319,66 @@ fn a_stock_past_its_keeping_days_gets_a_new_batch_and_one_day_shares_one() {
         .iter()
         .all(|l| l["stock"] != "Na2S2O3 5.00 mM"));
 }
+
+#[test]
+fn every_format_carries_the_batches_and_the_sections() {
+    // The stocks sheet: each batch (stock, planned day) in text, Markdown, HTML and CSV as in
+    // JSON, and each section's spent mixture in the waste.
+    let s = stocks();
+    let batches: Vec<(String, String)> = s["stocks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| {
+            (
+                b["name"].as_str().unwrap().to_string(),
+                b["made_on"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    let csv = run("stocks", WEEK, &["-f", "csv"]).stdout;
+    let rows: Vec<(String, String)> = csv
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').collect::<Vec<_>>())
+        .filter(|c| ["weigh", "measure", "dilute", "as usual"].contains(&c[9]))
+        .map(|c| (c[0].to_string(), c[1].to_string()))
+        .collect();
+    assert_eq!(rows, batches, "CSV batches");
+    for format in ["text", "md", "html"] {
+        // HTML typesets formulas (Na<sub>2</sub>…): read it as text.
+        let out = ["<sub>", "</sub>", "<sup>", "</sup>"]
+            .iter()
+            .fold(run("stocks", WEEK, &["-f", format]).stdout, |t, tag| {
+                t.replace(tag, "")
+            });
+        for (name, day) in &batches {
+            assert!(
+                out.contains(&format!("{name} (made {day}")),
+                "{format}: no section for {name} made {day}"
+            );
+        }
+        for spent in ["1920", "1600", "3520"] {
+            assert!(
+                out.contains(spent),
+                "{format}: no {spent} mL of spent mixture"
+            );
+        }
+    }
+    // The mixing sheet: each section's predicted times in every format.
+    let p = plan();
+    for format in ["text", "md", "html", "csv"] {
+        let out = run("plan", WEEK, &["-f", format]).stdout;
+        for sec in p["sections"].as_array().unwrap() {
+            for r in sec["runs"].as_array().unwrap() {
+                let t = f(&r["time_s"]);
+                let shown = if format == "csv" {
+                    t.to_string()
+                } else {
+                    format!("{t:.1} s")
+                };
+                assert!(out.contains(&shown), "{format}: no {shown}");
+            }
+        }
+    }
+}
