@@ -382,3 +382,37 @@ fn every_format_carries_the_batches_and_the_sections() {
         }
     }
 }
+
+#[test]
+fn the_starters_section_example_solves_when_uncommented() {
+    // `clockprep init` shows a commented [[section]]; following its words (remove `stations`
+    // from [plan], uncomment the section) gives a spec that plans for that section.
+    let out = assert_cmd::Command::cargo_bin("clockprep")
+        .unwrap()
+        .arg("init")
+        .output()
+        .unwrap();
+    let starter = String::from_utf8(out.stdout).unwrap();
+    let edited: String = starter
+        .lines()
+        .filter(|l| !l.starts_with("stations = "))
+        .map(|l| match l.strip_prefix("# ") {
+            Some(rest)
+                if rest.starts_with("[[section]]")
+                    || rest.starts_with("name = ")
+                    || rest.starts_with("date = ")
+                    || rest.starts_with("stations = ") =>
+            {
+                rest.to_string()
+            }
+            _ => l.to_string(),
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    assert!(edited.contains("\n[[section]]\n"), "{edited}");
+    let o = run("stocks", &edited, &["-f", "json"]);
+    assert_eq!(o.code, 0, "{}", o.stderr);
+    let s = json(&o.stdout);
+    assert_eq!(s["sections"][0]["name"], "Mon am");
+    assert_eq!(s["schedule"][0]["date"], "2027-01-11");
+}

@@ -146,7 +146,13 @@ pub fn starter(o: &StarterOptions) -> Result<String, String> {
         o.preset, s.note
     ));
     out.push_str(&format!(
-        "[plan]\ntitle = {}\ntotal_volume = \"{} mL\"        # every run\nstations = {}                  # bench groups working from the sheets\nreplicates = 2                # trials of each run per group\noverage = \"15 %\"             # extra stock beyond the computed need\ntemperature = \"21 °C\"         # planned room temperature\nbalance = \"0.01 g\"            # readability of the balance you weigh on\n\n",
+        "[plan]\ntitle = {}\ntotal_volume = \"{} mL\"        # every run\nstations = {}                  # bench groups working from the sheets\nreplicates = 2                # trials of each run per group\noverage = \"15 %\"             # extra stock beyond the computed need\ntemperature = \"21 °C\"         # planned room temperature\nbalance = \"0.01 g\"            # readability of the balance you weigh on\n\n\
+         # The same lab for several sections on several days? Remove `stations` above and give\n\
+         # each section instead; stocks are then made per day or once, by how long they keep:\n\
+         # [[section]]\n\
+         # name = \"Mon am\"\n\
+         # date = \"2027-01-11\"\n\
+         # stations = 6\n\n",
         q(&o.title),
         o.volume_ml,
         o.stations
