@@ -416,3 +416,33 @@ fn the_starters_section_example_solves_when_uncommented() {
     assert_eq!(s["sections"][0]["name"], "Mon am");
     assert_eq!(s["schedule"][0]["date"], "2027-01-11");
 }
+
+#[test]
+fn a_section_with_fewer_replicates_fills_its_tray_for_its_own() {
+    // Section 02 doing one trial of each run: its set-up cards fill the KI bottle for one set
+    // (25.0 mL, plus 10 % overage, plus the buret's rinse and fill), section 01's for two.
+    let one = edit(
+        WEEK,
+        "stations = 5\nreplicates = 2",
+        "stations = 5\nreplicates = 1",
+    );
+    let p = json(&run("plan", &one, &["-f", "json"]).stdout);
+    let ki = p["tray"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|t| t["stock"] == "KI 0.0200 M")
+        .unwrap();
+    let dead = f(&ki["dead_volume_mL"]);
+    assert_relative_eq!(f(&ki["use_mL"]), 50.0, max_relative = 1e-12);
+    let cards = run("cards", &one, &["--per", "station"]).stdout;
+    let fill = |text: &str| -> f64 {
+        let at = text.find("KI 0.0200 M</td><td class=\"n\">").unwrap() + 30;
+        text[at..].split('<').next().unwrap().parse().unwrap()
+    };
+    let mon = cards.find("Section 01").unwrap();
+    let wed = cards.find("Section 02").unwrap();
+    assert_relative_eq!(fill(&cards[mon..]), 50.0 * 1.10 + dead, epsilon = 0.05);
+    assert_relative_eq!(fill(&cards[wed..]), 25.0 * 1.10 + dead, epsilon = 0.05);
+    assert!(cards[wed..].contains("every run × 1 trial(s)"));
+}

@@ -244,6 +244,15 @@ fn setup_card(
     cards: usize,
 ) -> Markup {
     let replicates = station.map_or(report.replicates, |(_, s)| s.replicates);
+    // The tray is for the plan's replicates; a section with fewer fills its bottles for its
+    // own: its use scaled, plus the overage on that, plus the same rinse and fill.
+    let fill = |t: &crate::report::TrayItem| -> f64 {
+        if replicates == report.replicates {
+            return t.fill_ml;
+        }
+        let used = t.use_ml * replicates as f64 / report.replicates as f64;
+        used * (1.0 + report.overage_pct / 100.0) + t.dead_volume_ml
+    };
     html! {
         div.card {
             div.head {
@@ -275,7 +284,7 @@ fn setup_card(
                     table {
                         tr { th { "tray: bottle" } th { "fill (mL)" } th { "ready" } }
                         @for t in &report.tray {
-                            tr { td { (t.stock) } td.n { (format!("{:.1}", t.fill_ml)) } td {} }
+                            tr { td { (t.stock) } td.n { (format!("{:.1}", fill(t))) } td {} }
                         }
                     }
                 }
