@@ -124,7 +124,9 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
     let (spec, initial) = initial_concentrations(source)?;
     let prior = spec.need_prior()?;
     let forecast = kinetics::forecast::forecast(&spec, prior, &initial);
-    Ok(report::build_forecast(&spec, prior, &forecast))
+    let mut sheet = report::build_forecast(&spec, prior, &forecast);
+    sheet.sections = report::section_forecasts(&spec, &section_forecasts(&spec, &initial));
+    Ok(sheet)
 }
 
 /// The stock preparation sheet: what to make, in which flask, and how to weigh it up.

@@ -446,3 +446,11 @@ fn a_section_with_fewer_replicates_fills_its_tray_for_its_own() {
     assert_relative_eq!(fill(&cards[wed..]), 25.0 * 1.10 + dead, epsilon = 0.05);
     assert!(cards[wed..].contains("every run × 1 trial(s)"));
 }
+
+#[test]
+fn the_forecast_sheet_gives_the_sections_the_mixing_sheet_gives() {
+    // Both forecast from the delivered concentrations: the same times, section by section.
+    let o = run("forecast", WEEK, &["-f", "json"]);
+    assert!(o.code == 0 || o.code == 1, "{}", o.stderr);
+    assert_eq!(json(&o.stdout)["sections"], plan()["sections"]);
+}

@@ -155,6 +155,11 @@ fn two_section_week() {
         let html = String::from_utf8(clockprep::export::labels::labels(&sheet, paper)).unwrap();
         insta::assert_snapshot!(format!("week_labels_{p}"), html);
     }
+    let fc = clockprep::forecast_only(source("plans/birchfield-two-sections.toml")).unwrap();
+    for (format, ext) in FORMATS {
+        let text = String::from_utf8(export_forecast(&fc, format)).unwrap();
+        insta::assert_snapshot!(format!("week_forecast_{ext}"), text);
+    }
     // Station cards per section: each section's stations, its replicates, its forecast.
     let r = report("plans/birchfield-two-sections.toml");
     let html = String::from_utf8(cards(&r, Per::Station, Paper::Letter)).unwrap();

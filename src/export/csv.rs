@@ -121,6 +121,54 @@ impl Rows {
         ]);
     }
 
+    /// Each lab section's rows (see the README's CSV section).
+    fn sections(&mut self, sections: &[crate::report::SectionForecast]) {
+        let e = String::new;
+        // Each lab section: its stations x replicates, then each run's predicted time there
+        // (`section_time_s`, the section in `name`), its band's ends and its flags.
+        for s in sections {
+            let name = format!("{} {}", s.name, s.date);
+            self.plan_row(
+                "section",
+                &name,
+                e(),
+                e(),
+                format!(
+                    "{} stations x {} replicates{}",
+                    s.stations,
+                    s.replicates,
+                    s.temperature_c
+                        .map(|t| format!(" at {t} °C"))
+                        .unwrap_or_default()
+                ),
+            );
+            for r in &s.runs {
+                let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
+                self.value(&r.run, "section_time_s", &name, opt(r.time_s));
+                if let Some([fast, slow]) = r.band_s {
+                    self.value(&r.run, "section_warm_s", &name, fast.to_string());
+                    self.value(&r.run, "section_cool_s", &name, slow.to_string());
+                }
+                for f in &r.flags {
+                    self.value(
+                        &r.run,
+                        "section_warning",
+                        f.code,
+                        format!("{name}: {}", f.message),
+                    );
+                }
+            }
+            for f in &s.warnings {
+                self.value(
+                    "",
+                    "section_warning",
+                    f.code,
+                    format!("{name}: {}", f.message),
+                );
+            }
+        }
+    }
+
     fn finish(self) -> Vec<u8> {
         self.0.into_inner().expect("writing to memory cannot fail")
     }
@@ -222,49 +270,7 @@ impl Exporter for Csv {
                 e(),
             );
         }
-        // Each lab section: its stations x replicates, then each run's predicted time there
-        // (`section_time_s`, the section in `name`), its band's ends and its flags.
-        for s in &report.sections {
-            let name = format!("{} {}", s.name, s.date);
-            w.plan_row(
-                "section",
-                &name,
-                e(),
-                e(),
-                format!(
-                    "{} stations x {} replicates{}",
-                    s.stations,
-                    s.replicates,
-                    s.temperature_c
-                        .map(|t| format!(" at {t} °C"))
-                        .unwrap_or_default()
-                ),
-            );
-            for r in &s.runs {
-                let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
-                w.value(&r.run, "section_time_s", &name, opt(r.time_s));
-                if let Some([fast, slow]) = r.band_s {
-                    w.value(&r.run, "section_warm_s", &name, fast.to_string());
-                    w.value(&r.run, "section_cool_s", &name, slow.to_string());
-                }
-                for f in &r.flags {
-                    w.value(
-                        &r.run,
-                        "section_warning",
-                        f.code,
-                        format!("{name}: {}", f.message),
-                    );
-                }
-            }
-            for f in &s.warnings {
-                w.value(
-                    "",
-                    "section_warning",
-                    f.code,
-                    format!("{name}: {}", f.message),
-                );
-            }
-        }
+        w.sections(&report.sections);
         w.finish()
     }
 
@@ -291,6 +297,7 @@ impl Exporter for Csv {
         for f in &sheet.warnings {
             w.value("", "warning", f.code, f.message.clone());
         }
+        w.sections(&sheet.sections);
         w.finish()
     }
 

@@ -117,6 +117,9 @@ pub struct ForecastSheet {
     pub reaction: ReactionReport,
     pub forecast_settings: ForecastSettingsReport,
     pub runs: Vec<ForecastRun>,
+    /// The lab sections with each run's forecast at the section's temperature (as on the
+    /// mixing sheet); empty for a one-section spec.
+    pub sections: Vec<SectionForecast>,
     pub warnings: Vec<Flag>,
     pub flagged: bool,
     pub cautions: Vec<String>,
@@ -270,6 +273,7 @@ pub fn build_forecast(spec: &Spec, prior: &Prior, forecast: &Forecast) -> Foreca
                 forecast: forecast_report(f),
             })
             .collect(),
+        sections: Vec::new(),
         warnings: forecast.warnings.clone(),
         flagged: forecast.flagged(),
         cautions: reagents::cautions(species.iter().map(|sp| (None, vec![*sp]))),

@@ -305,69 +305,13 @@ impl PlanReport {
         }
         sections.push(self.totals_section());
         if !self.sections.is_empty() {
-            sections.push(self.sections_section());
+            sections.push(sections_section(&self.sections, self.reaction.is_some()));
         }
         if let (Some(r), Some(s)) = (&self.reaction, &self.forecast_settings) {
             sections.push(prior_section(r, s));
         }
         sections.push(cautions(&self.cautions));
         Page { title, sections }
-    }
-
-    /// The lab sections: each one's day, size and temperature, and the runs' forecast there.
-    fn sections_section(&self) -> Section {
-        let mut s = Section::new("Lab sections");
-        s.para("The same runs and volumes for every section; the forecast is at each section's temperature (a forecast, not a guarantee: time a pilot run in that room).");
-        let mut cols = vec!["run".to_string()];
-        cols.extend(self.sections.iter().map(|x| {
-            let t = x
-                .temperature_c
-                .map(|t| format!(", {t:.1} °C"))
-                .unwrap_or_default();
-            format!("{} {} {}{t}", x.name, x.weekday, x.date)
-        }));
-        let mut rows = vec![{
-            let mut r = vec!["stations x replicates".to_string()];
-            r.extend(
-                self.sections
-                    .iter()
-                    .map(|x| format!("{} x {}", x.stations, x.replicates)),
-            );
-            r
-        }];
-        if self.reaction.is_some() {
-            for (i, run) in self.runs.iter().enumerate() {
-                let mut r = vec![format!("{} predicted", run.name)];
-                r.extend(self.sections.iter().map(|x| {
-                    let t = x.runs[i].time_s.map_or("-".into(), secs);
-                    let flags: Vec<&str> = x.runs[i].flags.iter().map(|f| f.code).collect();
-                    if flags.is_empty() {
-                        t
-                    } else {
-                        format!("{t} FLAG {}", flags.join(", "))
-                    }
-                }));
-                rows.push(r);
-            }
-        }
-        let mut align = vec![Align::Right; cols.len()];
-        align[0] = Align::Left;
-        s.push(Block::Table(Table::with_align(cols, align, rows)));
-        let mut flags = Vec::new();
-        for x in &self.sections {
-            for run in &x.runs {
-                for f in &run.flags {
-                    flags.push(format!("Section {}, {}: {}", x.name, run.run, f.message));
-                }
-            }
-            for w in &x.warnings {
-                flags.push(format!("Section {}: {}", x.name, w.message));
-            }
-        }
-        if !flags.is_empty() {
-            s.push(Block::Warnings(flags));
-        }
-        s
     }
 
     /// What one station sets up: the glassware list with the reason for each device, and the
@@ -592,6 +536,9 @@ impl ForecastSheet {
         }
         if !warned.blocks.is_empty() {
             sections.push(warned);
+        }
+        if !self.sections.is_empty() {
+            sections.push(sections_section(&self.sections, true));
         }
         sections.push(prior_section(&self.reaction, &self.forecast_settings));
         sections.push(cautions(&self.cautions));
@@ -941,4 +888,65 @@ impl StockSheet {
         sec.para("Everything made up ends as waste, in the spent mixtures or the left-over stock: collect both as your local rules require (a bromate or persulfate mixture is oxidising; bromate is a suspected carcinogen), never assume the drain is allowed, and ask your institution's safety officer.");
         sec
     }
+}
+
+/// The lab sections: each one's day, size and temperature, and the runs' forecast there (the
+/// mixing sheet's and the forecast sheet's).
+fn sections_section(sections: &[super::SectionForecast], forecast: bool) -> Section {
+    let mut s = Section::new("Lab sections");
+    s.para("The same runs and volumes for every section; the forecast is at each section's temperature (a forecast, not a guarantee: time a pilot run in that room).");
+    let mut cols = vec!["run".to_string()];
+    cols.extend(sections.iter().map(|x| {
+        let t = x
+            .temperature_c
+            .map(|t| format!(", {t:.1} °C"))
+            .unwrap_or_default();
+        format!("{} {} {}{t}", x.name, x.weekday, x.date)
+    }));
+    let mut rows = vec![{
+        let mut r = vec!["stations x replicates".to_string()];
+        r.extend(
+            sections
+                .iter()
+                .map(|x| format!("{} x {}", x.stations, x.replicates)),
+        );
+        r
+    }];
+    let runs: Vec<&str> = sections
+        .first()
+        .map(|x| x.runs.iter().map(|r| r.run.as_str()).collect())
+        .unwrap_or_default();
+    if forecast {
+        for (i, run) in runs.iter().enumerate() {
+            let mut r = vec![format!("{run} predicted")];
+            r.extend(sections.iter().map(|x| {
+                let t = x.runs[i].time_s.map_or("-".into(), secs);
+                let flags: Vec<&str> = x.runs[i].flags.iter().map(|f| f.code).collect();
+                if flags.is_empty() {
+                    t
+                } else {
+                    format!("{t} FLAG {}", flags.join(", "))
+                }
+            }));
+            rows.push(r);
+        }
+    }
+    let mut align = vec![Align::Right; cols.len()];
+    align[0] = Align::Left;
+    s.push(Block::Table(Table::with_align(cols, align, rows)));
+    let mut flags = Vec::new();
+    for x in sections {
+        for run in &x.runs {
+            for f in &run.flags {
+                flags.push(format!("Section {}, {}: {}", x.name, run.run, f.message));
+            }
+        }
+        for w in &x.warnings {
+            flags.push(format!("Section {}: {}", x.name, w.message));
+        }
+    }
+    if !flags.is_empty() {
+        s.push(Block::Warnings(flags));
+    }
+    s
 }
