@@ -22,41 +22,51 @@ pub mod units;
 
 use error::{Result, SpecSource};
 
+/// A spec solved for the bench: the stocks' batches, and the stocks' uncertainties from the
+/// masses actually weighed, worked out once for every sheet.
+struct Solved {
+    spec: spec::Spec,
+    /// The spec's lab with the weighed stocks' uncertainties recomputed.
+    lab: spec::Lab,
+    solution: solve::Solution,
+    totals: lab::totals::Totals,
+    preps: Vec<lab::recipes::Preparation>,
+    uncertainty: Vec<lab::uncertainty::RunUncertainty>,
+}
+
+fn solved(source: SpecSource) -> Result<Solved> {
+    let spec = spec::load(source)?;
+    let bench = spec.need_lab()?;
+    let solution = solve::solve(&spec, bench)?;
+    let totals = lab::totals::compute(&spec, bench, &solution);
+    let preps = lab::recipes::prepare(bench, &totals);
+    let lab = lab::weighing::weighed_from(bench, &preps);
+    let uncertainty = lab::uncertainty::propagate_distinct(&spec, &lab, &solution);
+    Ok(Solved {
+        spec,
+        lab,
+        solution,
+        totals,
+        preps,
+        uncertainty,
+    })
+}
+
 /// The whole job for one spec: checked plan → deliverable volumes → portions → stock totals →
 /// report.
 pub fn plan(source: SpecSource) -> Result<report::PlanReport> {
-    let spec = spec::load(source)?;
-    let lab = spec.need_lab()?;
-    let solution = solve::solve(&spec, lab)?;
-    // Weighed stocks' uncertainties from the masses actually weighed.
-    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
-    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
-    report_of(&spec, lab, &solution, &uncertainty)
+    report_of(&solved(source)?)
 }
 
 /// The mixing sheet and the stock sheet of one spec from one solve.
 pub fn plan_with_stocks(source: SpecSource) -> Result<(report::PlanReport, report::StockSheet)> {
-    let spec = spec::load(source)?;
-    let lab = spec.need_lab()?;
-    let solution = solve::solve(&spec, lab)?;
-    // Weighed stocks' uncertainties from the masses actually weighed.
-    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
-    // One propagation serves both sheets.
-    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
-    Ok((
-        report_of(&spec, lab, &solution, &uncertainty)?,
-        stock_sheet(&spec, lab, &solution, &uncertainty),
-    ))
+    let s = solved(source)?;
+    Ok((report_of(&s)?, stock_sheet(&s)))
 }
 
-fn report_of(
-    spec: &spec::Spec,
-    lab: &spec::Lab,
-    solution: &solve::Solution,
-    uncertainty: &[lab::uncertainty::RunUncertainty],
-) -> Result<report::PlanReport> {
+fn report_of(s: &Solved) -> Result<report::PlanReport> {
+    let (spec, lab, solution) = (&s.spec, &s.lab, &s.solution);
     let mixing = lab::portions::split(spec, lab, solution)?;
-    let totals = lab::totals::compute(spec, lab, solution);
     let initial: Vec<_> = solution
         .runs
         .iter()
@@ -71,9 +81,9 @@ fn report_of(
         lab,
         solution,
         &mixing,
-        &totals,
+        &s.totals,
         forecast.as_ref(),
-        uncertainty,
+        &s.uncertainty,
     );
     report.sections = report::section_forecasts(spec, &section_forecasts(spec, &initial));
     Ok(report)
@@ -103,18 +113,20 @@ fn section_forecasts(
         .collect()
 }
 
-fn stock_sheet(
-    spec: &spec::Spec,
-    lab: &spec::Lab,
-    solution: &solve::Solution,
-    uncertainty: &[lab::uncertainty::RunUncertainty],
-) -> report::StockSheet {
-    let totals = lab::totals::compute(spec, lab, solution);
-    let preps = lab::recipes::prepare(lab, &totals);
-    let dominant = lab::uncertainty::dominant_stocks(spec, lab, &solution.runs, uncertainty);
-    let small = lab::recipes::small_masses(lab, &preps);
-    let waste = lab::waste::waste(lab, solution, &totals, &preps);
-    report::build_stocks(spec, lab, &preps, &dominant, &small, &waste, &totals.week)
+fn stock_sheet(s: &Solved) -> report::StockSheet {
+    let (spec, lab) = (&s.spec, &s.lab);
+    let dominant = lab::uncertainty::dominant_stocks(spec, lab, &s.solution.runs, &s.uncertainty);
+    let small = lab::recipes::small_masses(lab, &s.preps);
+    let waste = lab::waste::waste(lab, &s.solution, &s.totals, &s.preps);
+    report::build_stocks(
+        spec,
+        lab,
+        &s.preps,
+        &dominant,
+        &small,
+        &waste,
+        &s.totals.week,
+    )
 }
 
 /// Forecast clock times: from the delivered concentrations when the spec lists stocks (as
@@ -131,13 +143,7 @@ pub fn forecast_only(source: SpecSource) -> Result<report::ForecastSheet> {
 
 /// The stock preparation sheet: what to make, in which flask, and how to weigh it up.
 pub fn stocks(source: SpecSource) -> Result<report::StockSheet> {
-    let spec = spec::load(source)?;
-    let lab = spec.need_lab()?;
-    let solution = solve::solve(&spec, lab)?;
-    // Weighed stocks' uncertainties from the masses actually weighed.
-    let lab = &lab::weighing::with_weighed_masses(&spec, lab, &solution);
-    let uncertainty = lab::uncertainty::propagate_distinct(&spec, lab, &solution);
-    Ok(stock_sheet(&spec, lab, &solution, &uncertainty))
+    Ok(stock_sheet(&solved(source)?))
 }
 
 /// The forecast chart (SVG) of a spec: from the planned recipes when the spec lists stocks,

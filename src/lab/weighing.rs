@@ -10,7 +10,12 @@ use crate::spec::{recipe_uncertainty, Balance, Lab, Spec};
 /// The lab with every default stock uncertainty recomputed from the flasks chosen.
 pub fn with_weighed_masses(spec: &Spec, lab: &Lab, solution: &Solution) -> Lab {
     let totals = totals::compute(spec, lab, solution);
-    let preps = recipes::prepare(lab, &totals);
+    weighed_from(lab, &recipes::prepare(lab, &totals))
+}
+
+/// As [`with_weighed_masses`], from batches already prepared (the flasks never depend on the
+/// stocks' uncertainties, so the batches of the unpatched lab are those of the patched one).
+pub fn weighed_from(lab: &Lab, preps: &[recipes::Preparation]) -> Lab {
     let mut out = lab.clone();
     for i in 0..out.stocks.len() {
         if !out.stocks[i].uncertainty_by_recipe {
