@@ -110,3 +110,16 @@ fn cell_class(cell: &str, align: Align) -> Option<&'static str> {
         (false, false) => None,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_date_cell_does_not_break_at_its_hyphens() {
+        // Was "2026-12-" / "07" in a narrow column of the printed stocks sheet.
+        assert_eq!(cell_class("2026-12-07", Align::Left), Some("w"));
+        assert_eq!(cell_class("715.0", Align::Right), Some("n w"));
+        assert_eq!(cell_class("1 x 1000 mL + 1 x 250 mL", Align::Left), None);
+    }
+}

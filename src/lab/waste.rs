@@ -38,7 +38,7 @@ pub struct WeekWaste {
 }
 
 /// A stock's solute: (formula, mol/L, g/mol, the stock it is weighed or measured into),
-/// through one dilution. None for a stock made "as usual".
+/// along its chain of dilutions. None for a stock made "as usual".
 pub fn solute_of(lab: &Lab, s: usize) -> Option<(String, f64, f64, usize)> {
     let st = &lab.stocks[s];
     match &st.recipe {
@@ -66,49 +66,45 @@ pub fn solute_of(lab: &Lab, s: usize) -> Option<(String, f64, f64, usize)> {
 
 impl Waste {
     fn add_solute(&mut self, lab: &Lab, stock: usize, litres: f64) {
-        let Some((formula, c, m, source)) = solute_of(lab, stock) else {
-            return;
-        };
-        let grams = c * m * litres;
-        match self
-            .solutes
-            .iter_mut()
-            .find(|x| x.formula == formula && x.stock == source)
-        {
-            Some(x) => x.grams += grams,
-            None => self.solutes.push(Solute {
+        if let Some((formula, c, m, source)) = solute_of(lab, stock) {
+            self.merge_solute(Solute {
                 formula,
                 stock: source,
-                grams,
-            }),
+                grams: c * m * litres,
+            });
         }
     }
 
-    fn add_leftover(&mut self, lab: &Lab, stock: usize, litres: f64) {
+    fn merge_solute(&mut self, x: Solute) {
+        match self
+            .solutes
+            .iter_mut()
+            .find(|y| y.formula == x.formula && y.stock == x.stock)
+        {
+            Some(y) => y.grams += x.grams,
+            None => self.solutes.push(x),
+        }
+    }
+
+    fn merge_leftover(&mut self, stock: usize, litres: f64) {
         match self.leftover.iter_mut().find(|x| x.0 == stock) {
             Some(x) => x.1 += litres,
             None => self.leftover.push((stock, litres)),
         }
+    }
+
+    fn add_leftover(&mut self, lab: &Lab, stock: usize, litres: f64) {
+        self.merge_leftover(stock, litres);
         self.add_solute(lab, stock, litres);
     }
 
     fn add(&mut self, other: &Waste) {
         self.spent += other.spent;
         for &(s, l) in &other.leftover {
-            match self.leftover.iter_mut().find(|x| x.0 == s) {
-                Some(x) => x.1 += l,
-                None => self.leftover.push((s, l)),
-            }
+            self.merge_leftover(s, l);
         }
         for x in &other.solutes {
-            match self
-                .solutes
-                .iter_mut()
-                .find(|y| y.formula == x.formula && y.stock == x.stock)
-            {
-                Some(y) => y.grams += x.grams,
-                None => self.solutes.push(x.clone()),
-            }
+            self.merge_solute(x.clone());
         }
     }
 

@@ -1,6 +1,7 @@
 //! The stock preparation sheet as data ("format": "clockprep-stocks/1").
 
 use super::*;
+use crate::lab::recipes::Preparation;
 
 /// Version tag of the `clockprep stocks` JSON layout.
 pub const STOCKS_FORMAT: &str = "clockprep-stocks/1";
@@ -622,8 +623,6 @@ pub fn build_stocks(
         cautions: reagents::cautions(used),
     }
 }
-
-use crate::lab::recipes::Preparation;
 
 /// The glassware of the spec that delivers a dilution's aliquot (`volume` L) in at most two
 /// additions, as the bench would (volumetric pipets first); else the pipet to fetch.
