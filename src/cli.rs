@@ -144,6 +144,20 @@ pub enum Command {
         #[command(flatten)]
         write: WriteArgs,
     },
+    /// Edit a spec in a local web page and see every sheet as you type; print and download
+    /// from there. Listens on 127.0.0.1 only, unless --listen is given.
+    Serve {
+        /// The spec to edit (Save writes back to it, keeping the previous version as SPEC~);
+        /// without one the page starts from the bromate starter.
+        spec: Option<PathBuf>,
+        /// The port (0 picks a free one).
+        #[arg(long, default_value_t = crate::serve::DEFAULT_PORT)]
+        port: u16,
+        /// Listen on this address instead of 127.0.0.1 (e.g. 0.0.0.0 to reach the page from a
+        /// tablet on the same network); the page has no login, so a warning is printed.
+        #[arg(long)]
+        listen: Option<std::net::IpAddr>,
+    },
     /// Write a commented starter spec for a reaction preset that solves as written.
     Init {
         /// The reaction preset.
@@ -444,6 +458,11 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
             let text = crate::spec::starter::starter(&options)
                 .map_err(|message| Error::Starter { message })?;
             Ok((text.into_bytes(), false))
+        }),
+        Command::Serve { spec, port, listen } => crate::serve::serve(crate::serve::Options {
+            spec,
+            port,
+            listen: listen.unwrap_or(std::net::IpAddr::V4(std::net::Ipv4Addr::LOCALHOST)),
         }),
         Command::Schema { write } => guarded(&write, &[], || {
             Ok((crate::spec::schema().into_bytes(), false))

@@ -138,6 +138,12 @@ pub enum Error {
     #[diagnostic(help("give one of them as a file path; `-` stands for standard input"))]
     TwoStdin,
 
+    #[error("clockprep serve: {reason}")]
+    #[diagnostic(help(
+        "choose another port with --port (0 picks a free one), or stop the program that holds it"
+    ))]
+    Serve { reason: String },
+
     /// The solver failed in a way the checks before it did not foresee.
     #[error("run '{run}': the solver stopped: {reason}")]
     #[diagnostic(help(

@@ -16,6 +16,7 @@ pub mod lab;
 pub mod output;
 pub mod reference;
 pub mod report;
+pub mod serve;
 pub mod solve;
 pub mod spec;
 pub mod units;

@@ -14,6 +14,7 @@ pub mod pdf;
 mod text;
 mod toml;
 pub mod typeset;
+pub mod xlsx;
 
 use crate::report::page::Page;
 use crate::report::{DesignSheet, FitReport, ForecastSheet, PlanReport, StockSheet, TuneSheet};
@@ -60,6 +61,11 @@ fn render(page: &Page, format: Format) -> Option<Vec<u8>> {
         Format::Html => Some(html::render(page)),
         Format::Csv | Format::Json => None,
     }
+}
+
+/// A page as the HTML document every sheet prints as.
+pub fn render_html(page: &Page) -> Vec<u8> {
+    html::render(page)
 }
 
 /// Export a plan report in `format`.

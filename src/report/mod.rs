@@ -32,6 +32,14 @@ impl FitReport {
             FitReport::Terms(s) => s.flagged,
         }
     }
+
+    /// The fit's sheet.
+    pub fn page(&self) -> page::Page {
+        match self {
+            FitReport::OneTerm(s) => s.page(),
+            FitReport::Terms(s) => s.page(),
+        }
+    }
 }
 pub use forecast::*;
 pub use station::{DeviceChoice, GlasswareItem, TrayItem};

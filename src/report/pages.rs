@@ -314,6 +314,29 @@ impl PlanReport {
         Page { title, sections }
     }
 
+    /// What each station sets up, as a page of its own: the glassware list and the tray.
+    pub fn glassware_page(&self) -> Page {
+        let title = format!("Bench glassware: {}", self.title);
+        let mut head = Section::new(title.clone());
+        head.para(format!("Spec: {}", self.spec));
+        let who = if self.sections.is_empty() {
+            format!("{} station(s)", self.stations)
+        } else {
+            self.sections
+                .iter()
+                .map(|x| format!("{} {}: {} station(s)", x.name, x.date, x.stations))
+                .collect::<Vec<_>>()
+                .join("; ")
+        };
+        head.para(format!(
+            "{who}; every station sets up the same glassware and tray."
+        ));
+        Page {
+            title,
+            sections: vec![head, self.station_section(), cautions(&self.cautions)],
+        }
+    }
+
     /// What one station sets up: the glassware list with the reason for each device, and the
     /// tray of bottles with their fill volumes.
     fn station_section(&self) -> Section {
