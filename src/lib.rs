@@ -291,14 +291,37 @@ pub fn design(source: SpecSource) -> Result<report::DesignSheet> {
 
 /// Tune the timing-reagent concentration.
 pub fn tune(source: SpecSource) -> Result<report::TuneSheet> {
-    let spec = spec::load_for(source, spec::Purpose::Forecast)?;
+    let spec = spec::load_for(source.clone(), spec::Purpose::Forecast)?;
     let prior = spec.need_prior()?;
     let initial: Vec<Concentrations> = spec
         .runs
         .iter()
         .map(|r| r.target_concentrations())
         .collect();
-    let t = kinetics::tune::tune(&spec, prior, &initial).map_err(|e| {
+    // With stocks and glassware, only a timing volume the bench can deliver is suggested, so
+    // that the suggestion pasted back solves.
+    let full = match &spec.lab {
+        Some(_) => Some(spec::load(source)?),
+        None => None,
+    };
+    let tuned = match full.as_ref().and_then(|f| f.lab.as_ref().map(|l| (f, l))) {
+        Some((f, lab)) => kinetics::tune::tune_deliverable(&spec, prior, &initial, |c| {
+            // The deliverable volumes next to the best, and the spec's own value, each kept
+            // only if every run still solves with it.
+            let mut candidates = solve::deliverable_timing(f, lab, c);
+            candidates.push(f.timing.concentration);
+            candidates
+                .into_iter()
+                .filter(|&c| {
+                    let mut g = f.clone();
+                    g.timing.concentration = c;
+                    g.lab.as_ref().is_some_and(|l| solve::solve(&g, l).is_ok())
+                })
+                .collect()
+        }),
+        None => kinetics::tune::tune(&spec, prior, &initial),
+    };
+    let t = tuned.map_err(|e| {
         spec.source.error(
             spec.source.table("[reaction]"),
             e.0,

@@ -1412,3 +1412,33 @@ fn design_names_a_thiosulfate_weighed_on_a_top_loader_and_titrating_it_is_accept
         after["advice"]
     );
 }
+
+/// Apply `clockprep tune -f toml`'s [timing] line to a spec as the page (and a user) would.
+fn tuned(spec: &str) -> Option<String> {
+    let o = run("tune", spec, &["-f", "toml"]);
+    let line = o.stdout.lines().find(|l| l.starts_with("concentration = "))?;
+    let old = spec
+        .lines()
+        .skip_while(|l| l.trim() != "[timing]")
+        .find(|l| l.starts_with("concentration = "))?;
+    Some(spec.replacen(old, line, 1))
+}
+
+#[test]
+fn the_tuned_timing_concentration_pasted_back_solves() {
+    // Was: the bromate demo's tune said 0.178 mM, i.e. 8.9 mL of its 1.00 mM thiosulfate,
+    // which its only allowed device (a 5 mL transfer pipet) cannot deliver; pasted back,
+    // `plan` refused it. Now only a timing volume the bench can deliver, with every run still
+    // fitting in its volume, is suggested.
+    let buret = BROMATE.replace("devices = [\"5 mL transfer pipet\"]\n", "");
+    for (name, spec) in [
+        ("bromate", BROMATE.to_string()),
+        ("persulfate", PERSULFATE.to_string()),
+        ("week", WEEK.to_string()),
+        ("bromate, thiosulfate by buret", buret),
+    ] {
+        let Some(after) = tuned(&spec) else { continue };
+        let o = run("plan", &after, &[]);
+        assert_ne!(o.code, 2, "{name}: {}", o.stderr);
+    }
+}

@@ -272,6 +272,37 @@ pub fn tune(
 ) -> Result<Tuning, NoTuning> {
     let limit = conversion_limit(prior, initial)?;
     let (concentration, _) = best_concentration(spec, prior, initial, limit);
+    tuned_at(spec, prior, initial, concentration, limit)
+}
+
+/// As [`tune`], for a bench whose glassware delivers only some timing volumes: of the
+/// concentrations `deliverable` gives near the best one (the best itself when it can be
+/// delivered), the one with the widest margin within the conversion limit. When none is
+/// offered, the best concentration as [`tune`] finds it.
+pub fn tune_deliverable(
+    spec: &Spec,
+    prior: &Prior,
+    initial: &[Vec<(String, f64)>],
+    deliverable: impl Fn(f64) -> Vec<f64>,
+) -> Result<Tuning, NoTuning> {
+    let limit = conversion_limit(prior, initial)?;
+    let (best, _) = best_concentration(spec, prior, initial, limit);
+    let chosen = deliverable(best)
+        .into_iter()
+        .filter(|&c| c > 0.0 && c <= limit * (1.0 + 1e-9))
+        .filter_map(|c| times(spec, prior, initial, c).map(|r| (c, margin(prior, &r))))
+        .max_by(|a, b| a.1.total_cmp(&b.1))
+        .map_or(best, |(c, _)| c);
+    tuned_at(spec, prior, initial, chosen, limit)
+}
+
+fn tuned_at(
+    spec: &Spec,
+    prior: &Prior,
+    initial: &[Vec<(String, f64)>],
+    concentration: f64,
+    limit: f64,
+) -> Result<Tuning, NoTuning> {
     let runs = times(spec, prior, initial, concentration)
         .ok_or_else(|| NoTuning("a run has no clock at the best concentration".into()))?;
     let m = margin(prior, &runs);

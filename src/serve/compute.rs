@@ -197,7 +197,8 @@ pub fn compute(name: &str, text: &str, times: Option<&Times>) -> Computed {
         match crate::tune(source.clone()) {
             Ok(t) => {
                 panes.push(sheet("tune", export::export_tune(&t, SummaryFormat::Html)));
-                if t.fits {
+                let changes = (t.concentration_m - t.current_m).abs() > 1e-9 * t.current_m;
+                if t.fits && changes {
                     suggestions.push(Suggestion {
                         kind: "tune",
                         label: format!(

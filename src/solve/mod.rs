@@ -482,6 +482,28 @@ fn trim_ml(litres: f64) -> String {
     s.to_string()
 }
 
+/// The timing concentrations the bench can give near `c` (mol/L): `c` itself when its volume
+/// of the timing stock is deliverable by that stock's devices, else the deliverable volumes
+/// just below and above it, as concentrations. Empty when the spec's timing stock delivers
+/// no volume near it.
+pub fn deliverable_timing(spec: &Spec, lab: &Lab, c: f64) -> Vec<f64> {
+    let stock = &lab.stocks[lab.timing_stock];
+    let c_stock = stock.concentration_of(&spec.timing.species);
+    if c_stock <= 0.0 || lab.total_volume <= 0.0 {
+        return Vec::new();
+    }
+    let v = c * lab.total_volume / c_stock;
+    if find_delivery(v, &stock.devices, &lab.devices).is_some() {
+        return vec![c];
+    }
+    let (below, above) = nearest_deliverable(v, &stock.devices, &lab.devices);
+    [below, above]
+        .into_iter()
+        .flatten()
+        .map(|v| v * c_stock / lab.total_volume)
+        .collect()
+}
+
 /// Nearest volumes below and above `v` that the allowed devices deliver in one addition.
 fn nearest_deliverable(
     v: f64,

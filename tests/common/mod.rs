@@ -3,6 +3,7 @@
 #![allow(dead_code)]
 
 pub mod rng;
+pub mod server;
 
 use assert_cmd::Command;
 #[allow(unused_imports)]
