@@ -125,7 +125,10 @@ fn open_on(text: &str) -> Session {
         _browser: browser,
         tab,
     };
-    s.wait("window.clockprep && window.clockprep.updates >= 1", "the first answer");
+    s.wait(
+        "window.clockprep && window.clockprep.updates >= 1",
+        "the first answer",
+    );
     s
 }
 
@@ -166,7 +169,10 @@ impl Session {
 
     /// Wait for the answer after the one counted as `before`.
     fn next_answer(&self, before: u64) {
-        self.wait(&format!("window.clockprep.updates > {before}"), "the next answer");
+        self.wait(
+            &format!("window.clockprep.updates > {before}"),
+            "the next answer",
+        );
     }
 
     fn toml(&self) -> String {
@@ -327,7 +333,10 @@ fn applying_the_tune_suggestion_changes_the_timing_line() {
         .to_string();
     assert_ne!(line, "concentration = \"0.100 mM\"", "a change to apply");
     s.eval("document.querySelector('.sheets .tab[data-tab=tune]').click()");
-    s.wait("document.querySelector('button.apply[data-kind=tune]')", "the Apply button");
+    s.wait(
+        "document.querySelector('button.apply[data-kind=tune]')",
+        "the Apply button",
+    );
     s.screenshot("page-tune");
     let before = s.updates();
     s.eval("document.querySelector('button.apply[data-kind=tune]').click()");
@@ -341,7 +350,10 @@ fn applying_the_tune_suggestion_changes_the_timing_line() {
     );
     let changed = s.eval("document.getElementById('changed').textContent");
     let changed = changed.as_str().unwrap();
-    assert!(changed.contains("- concentration = \"0.100 mM\""), "{changed}");
+    assert!(
+        changed.contains("- concentration = \"0.100 mM\""),
+        "{changed}"
+    );
     assert!(changed.contains(&format!("+ {line}")), "{changed}");
     // The mixing sheet follows: its timing line as the CLI prints it for the new text.
     let plan = common::run("plan", &toml, &[]).stdout;
@@ -350,7 +362,10 @@ fn applying_the_tune_suggestion_changes_the_timing_line() {
         .find(|l| l.starts_with("Timing reagent:"))
         .expect("the timing line");
     let words: Vec<&str> = timing.split_whitespace().collect();
-    let at = words.windows(3).position(|w| w[1] == "mM" && w[2] == "in").unwrap();
+    let at = words
+        .windows(3)
+        .position(|w| w[1] == "mM" && w[2] == "in")
+        .unwrap();
     let shown = format!("{} mM in every run", words[at]);
     assert!(s.pane_text("mixing").contains(&shown), "{shown}");
 }
@@ -368,7 +383,10 @@ fn an_uploaded_pilot_csv_is_fitted_and_its_prior_applies() {
         .set_input_files(&[csv.to_str().unwrap()])
         .unwrap();
     s.next_answer(before);
-    s.wait("document.querySelector('button.apply[data-kind=fit]')", "the fit");
+    s.wait(
+        "document.querySelector('button.apply[data-kind=fit]')",
+        "the fit",
+    );
     s.screenshot("page-fit");
     let fitted = s.pane_text("fit");
     // The same k the CLI fits from the same file.
@@ -390,8 +408,14 @@ fn an_uploaded_pilot_csv_is_fitted_and_its_prior_applies() {
     s.eval("document.querySelector('button.apply[data-kind=fit]').click()");
     s.next_answer(before);
     let toml = s.toml();
-    assert!(!toml.contains("preset = \"bromate-iodide\""), "the prior replaced");
-    assert!(toml.contains("fit to 10 trials in maple-hollow-pilot.csv"), "{toml}");
+    assert!(
+        !toml.contains("preset = \"bromate-iodide\""),
+        "the prior replaced"
+    );
+    assert!(
+        toml.contains("fit to 10 trials in maple-hollow-pilot.csv"),
+        "{toml}"
+    );
     assert_eq!(
         s.eval("document.getElementById('panes').classList.contains('stale')"),
         Value::Bool(false),
@@ -426,7 +450,10 @@ fn cards_printed_from_the_page_read_back_at_their_size_and_page_count() {
             .stdout,
     )
     .into_owned();
-    assert!(text.contains("goggles") || text.contains("Goggles"), "cautions on the cards");
+    assert!(
+        text.contains("goggles") || text.contains("Goggles"),
+        "cautions on the cards"
+    );
     s.eval("document.querySelector('.sheets .tab[data-tab=print]').click()");
     s.screenshot("page-print");
 }
@@ -470,7 +497,10 @@ fn base64(s: &str) -> Vec<u8> {
     let mut out = Vec::with_capacity(clean.len() * 3 / 4);
     for chunk in clean.chunks(4) {
         let v: Vec<u32> = chunk.iter().map(|&c| u32::from(val(c))).collect();
-        let n = v.iter().enumerate().fold(0u32, |acc, (i, x)| acc | x << (18 - 6 * i));
+        let n = v
+            .iter()
+            .enumerate()
+            .fold(0u32, |acc, (i, x)| acc | x << (18 - 6 * i));
         out.push((n >> 16) as u8);
         if v.len() > 2 {
             out.push((n >> 8) as u8);

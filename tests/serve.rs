@@ -16,7 +16,10 @@ fn the_page_and_its_assets_are_served_with_the_spec_and_cautions() {
     let page = s.get("/");
     assert_eq!(page.status, 200);
     let html = page.text();
-    assert!(html.contains("Maple Hollow CC"), "the spec's text is in the editor");
+    assert!(
+        html.contains("Maple Hollow CC"),
+        "the spec's text is in the editor"
+    );
     assert!(html.contains("goggles") && html.contains("SDS") && html.contains("safety officer"));
     assert!(page
         .header("content-security-policy")
@@ -63,7 +66,11 @@ fn a_post_from_another_origin_is_refused() {
         assert_eq!(a.status, 403, "{name}: {value}");
     }
     // The same request from the page itself is answered.
-    assert_eq!(s.post_json("/api/compute", &json!({"text": BROMATE})).status, 200);
+    assert_eq!(
+        s.post_json("/api/compute", &json!({"text": BROMATE}))
+            .status,
+        200
+    );
 }
 
 #[test]
@@ -95,7 +102,9 @@ fn a_malformed_spec_is_answered_with_the_located_message_of_the_cli() {
     // The form shows it beside the field.
     assert!(r["form_html"].as_str().unwrap().contains(first));
     // Not TOML at all: located too, and the form is left as the page has it.
-    let a = s.post_json("/api/compute", &json!({ "text": "[plan\n" })).json();
+    let a = s
+        .post_json("/api/compute", &json!({ "text": "[plan\n" }))
+        .json();
     assert!(a["computed"]["error"]["line"].is_number(), "{a}");
     assert!(a["form_html"].is_null());
     // Not JSON: refused by the server, which goes on.
@@ -132,10 +141,17 @@ fn two_hundred_concurrent_recomputes_are_all_answered_and_memory_stays_flat() {
     for h in handles {
         let (i, status, r) = h.join().expect("a request thread");
         assert_eq!(status, 200, "request {i}");
-        assert!(r["computed"]["error"].is_null(), "request {i}: {}", r["computed"]["error"]);
+        assert!(
+            r["computed"]["error"].is_null(),
+            "request {i}: {}",
+            r["computed"]["error"]
+        );
         let mixing = r["computed"]["panes"][0]["html"].as_str().unwrap();
         let stations = 1 + i % 20;
-        assert!(mixing.contains(&format!("| {stations} station(s) x 2 replicate(s)")), "request {i}");
+        assert!(
+            mixing.contains(&format!("| {stations} station(s) x 2 replicate(s)")),
+            "request {i}"
+        );
         answered += 1;
     }
     assert_eq!(answered, 200);
@@ -202,7 +218,10 @@ fn a_save_racing_an_outside_edit_is_refused_and_nothing_is_lost() {
     );
     let r = a.json();
     assert_eq!(r["saved"], false);
-    assert_eq!(r["download"], true, "the page offers its text as a download");
+    assert_eq!(
+        r["download"], true,
+        "the page offers its text as a download"
+    );
     assert!(r["message"].as_str().unwrap().contains("changed on disk"));
     assert_eq!(std::fs::read_to_string(&path).unwrap(), outside);
     assert!(!dir.path().join("lab.toml~").exists());
@@ -225,7 +244,10 @@ fn without_a_file_save_offers_a_download() {
         json!({ "text": BROMATE }).to_string().as_bytes(),
     );
     let r = a.json();
-    assert_eq!((r["saved"].clone(), r["download"].clone()), (json!(false), json!(true)));
+    assert_eq!(
+        (r["saved"].clone(), r["download"].clone()),
+        (json!(false), json!(true))
+    );
 }
 
 #[test]
@@ -243,10 +265,7 @@ fn downloads_carry_the_cli_bytes_and_a_workbook() {
     let s = Server::start(None);
     let origin = format!("http://{}", s.host());
     let form = |file: &str, extra: &str| {
-        let body = format!(
-            "spec={}&times_name=&times_csv={extra}",
-            urlencode(BROMATE)
-        );
+        let body = format!("spec={}&times_name=&times_csv={extra}", urlencode(BROMATE));
         s.raw(
             "POST",
             &format!("/out/{file}"),
@@ -261,7 +280,11 @@ fn downloads_carry_the_cli_bytes_and_a_workbook() {
     let csv = form("mixing.csv", "");
     assert_eq!(csv.status, 200);
     let cli = common::run("plan", BROMATE, &["-f", "csv"]);
-    assert_eq!(csv.text(), cli.stdout, "the same bytes as clockprep plan -f csv");
+    assert_eq!(
+        csv.text(),
+        cli.stdout,
+        "the same bytes as clockprep plan -f csv"
+    );
     assert!(csv
         .header("content-disposition")
         .is_some_and(|d| d.starts_with("attachment; filename=\"new-lab-mixing.csv\"")));
@@ -272,7 +295,11 @@ fn downloads_carry_the_cli_bytes_and_a_workbook() {
     let book = form("workbook.xlsx", "");
     assert_eq!(book.status, 200);
     assert_eq!(&book.body[..2], b"PK", "an xlsx is a zip");
-    assert_eq!(form("workbook.xlsx", "").body, book.body, "same spec, same bytes");
+    assert_eq!(
+        form("workbook.xlsx", "").body,
+        book.body,
+        "same spec, same bytes"
+    );
     assert_eq!(form("../../etc/passwd", "").status, 404);
     let bad = s.raw(
         "POST",

@@ -1416,7 +1416,10 @@ fn design_names_a_thiosulfate_weighed_on_a_top_loader_and_titrating_it_is_accept
 /// Apply `clockprep tune -f toml`'s [timing] line to a spec as the page (and a user) would.
 fn tuned(spec: &str) -> Option<String> {
     let o = run("tune", spec, &["-f", "toml"]);
-    let line = o.stdout.lines().find(|l| l.starts_with("concentration = "))?;
+    let line = o
+        .stdout
+        .lines()
+        .find(|l| l.starts_with("concentration = "))?;
     let old = spec
         .lines()
         .skip_while(|l| l.trim() != "[timing]")

@@ -16,7 +16,10 @@ fn number(cell: &str) -> Option<f64> {
         && t.chars()
             .all(|c| c.is_ascii_digit() || matches!(c, '.' | '-' | '+' | 'e' | 'E'))
         && t.chars().any(|c| c.is_ascii_digit());
-    plain.then(|| t.parse::<f64>().ok()).flatten().filter(|v| v.is_finite())
+    plain
+        .then(|| t.parse::<f64>().ok())
+        .flatten()
+        .filter(|v| v.is_finite())
 }
 
 /// A worksheet name from a page's short name and a table's heading: Excel's forbidden
@@ -31,7 +34,10 @@ fn sheet_name(short: &str, heading: &str, taken: &mut Vec<String>) -> String {
     let mut n = 2;
     while taken.iter().any(|t| t.eq_ignore_ascii_case(&name)) {
         let tail = format!(" ({n})");
-        let keep: String = base.chars().take(NAME_CHARS - tail.chars().count()).collect();
+        let keep: String = base
+            .chars()
+            .take(NAME_CHARS - tail.chars().count())
+            .collect();
         name = format!("{}{tail}", keep.trim_end());
         n += 1;
     }

@@ -37,11 +37,10 @@ pub struct Located {
 impl Located {
     pub fn of(e: &Error, form: Option<&Form>) -> Located {
         let mut report = String::new();
-        let handler = miette::GraphicalReportHandler::new_themed(
-            miette::GraphicalTheme::unicode_nocolor(),
-        )
-        .with_width(100)
-        .with_links(false);
+        let handler =
+            miette::GraphicalReportHandler::new_themed(miette::GraphicalTheme::unicode_nocolor())
+                .with_width(100)
+                .with_links(false);
         let _ = handler.render_report(&mut report, e);
         let mut out = Located {
             message: e.message(),
@@ -150,7 +149,131 @@ fn refusal(id: &'static str, e: &Error, form: Option<&Form>) -> Pane {
     note(id, Located::of(e, form).report)
 }
 
-/// Recompute every pane for `text` (named `name` in messages).
+/// Some of the panes, with their suggestions and whether they flag anything.
+#[derive(Default)]
+struct Part {
+    panes: Vec<Pane>,
+    suggestions: Vec<Suggestion>,
+    flagged: bool,
+}
+
+impl Part {
+    fn notes(ids: &[&'static str], why: &str) -> Part {
+        Part {
+            panes: ids.iter().map(|id| note(id, why)).collect(),
+            ..Part::default()
+        }
+    }
+}
+
+/// Mixing, stocks and glassware: one solve. Its refusal is the spec's.
+fn bench_part(source: SpecSource, has_lab: bool) -> Result<Part, Error> {
+    if !has_lab {
+        return Ok(Part::notes(&["mixing", "stocks", "glassware"], "This spec lists no [[stock]] and [[device]]: add them (or start from clockprep init) to get the mixing and stock sheets."));
+    }
+    let (report, stocks) = crate::plan_with_stocks(source)?;
+    Ok(Part {
+        panes: vec![
+            sheet("mixing", export::export(&report, Format::Html)),
+            sheet("stocks", export::export_stocks(&stocks, Format::Html)),
+            sheet("glassware", export::render_html(&report.glassware_page())),
+        ],
+        suggestions: Vec::new(),
+        flagged: report.flagged,
+    })
+}
+
+const NO_PRIOR: &str = "Add a [reaction] table (e.g. preset = \"bromate-iodide\") to forecast the clock times, tune the timing reagent and fit pilot times.";
+
+/// The forecast. Its refusal is the spec's.
+fn forecast_part(source: SpecSource, has_prior: bool) -> Result<Part, Error> {
+    if !has_prior {
+        return Ok(Part::notes(&["forecast"], NO_PRIOR));
+    }
+    let f = crate::forecast_only(source)?;
+    Ok(Part {
+        panes: vec![sheet("forecast", export::export_forecast(&f, Format::Html))],
+        suggestions: Vec::new(),
+        flagged: f.flagged,
+    })
+}
+
+/// Tune and fit: their own refusals stay on their panes.
+fn prior_part(
+    source: SpecSource,
+    has_prior: bool,
+    times: Option<&Times>,
+    form: Option<&Form>,
+) -> Part {
+    if !has_prior {
+        return Part::notes(&["tune", "fit"], NO_PRIOR);
+    }
+    let mut part = Part::default();
+    match crate::tune(source.clone()) {
+        Ok(t) => {
+            part.panes
+                .push(sheet("tune", export::export_tune(&t, SummaryFormat::Html)));
+            let changes = (t.concentration_m - t.current_m).abs() > 1e-9 * t.current_m;
+            if t.fits && changes {
+                part.suggestions.push(Suggestion {
+                    kind: "tune",
+                    label: format!("Set [timing] concentration = \"{}\"", t.concentration),
+                    toml: String::from_utf8_lossy(&export::export_tune(&t, SummaryFormat::Toml))
+                        .into_owned(),
+                });
+            }
+        }
+        Err(e) => part.panes.push(refusal("tune", &e, form)),
+    }
+    match times {
+        None => part.panes.push(note("fit", "Upload the pilot (or class) times as CSV with a header and the columns run, time and optionally temperature, one row per trial, to fit the prior rate law.")),
+        Some(t) => match crate::fit(source, SpecSource::new(t.name.clone(), t.csv.clone()), None) {
+            Ok(f) => {
+                part.panes.push(sheet("fit", export::export_fit(&f, SummaryFormat::Html)));
+                part.suggestions.push(Suggestion {
+                    kind: "fit",
+                    label: "Replace [reaction] with the fitted rate law".into(),
+                    toml: String::from_utf8_lossy(&export::export_fit(&f, SummaryFormat::Toml))
+                        .into_owned(),
+                });
+            }
+            Err(e) => part.panes.push(refusal("fit", &e, form)),
+        },
+    }
+    part
+}
+
+/// The design: its own refusal stays on its pane.
+fn design_part(source: SpecSource, has_design: bool, form: Option<&Form>) -> Part {
+    if !has_design {
+        return Part::notes(&["design"], "Add a [design] table (base point, scheme, multipliers) to design a run set and see the precision it gives.");
+    }
+    match crate::design(source) {
+        Ok(d) => Part {
+            panes: vec![sheet(
+                "design",
+                export::export_design(&d, SummaryFormat::Html),
+            )],
+            suggestions: vec![Suggestion {
+                kind: "design",
+                label: format!(
+                    "Replace the [[run]] list with the {} designed runs",
+                    d.runs.len()
+                ),
+                toml: String::from_utf8_lossy(&export::export_design(&d, SummaryFormat::Toml))
+                    .into_owned(),
+            }],
+            flagged: false,
+        },
+        Err(e) => Part {
+            panes: vec![refusal("design", &e, form)],
+            ..Part::default()
+        },
+    }
+}
+
+/// Recompute every pane for `text` (named `name` in messages). The four parts are
+/// independent computations of the library and run side by side on the machine's cores.
 pub fn compute(name: &str, text: &str, times: Option<&Times>) -> Computed {
     let form = form::read(text).ok();
     let source = SpecSource::new(name, text);
@@ -164,103 +287,44 @@ pub fn compute(name: &str, text: &str, times: Option<&Times>) -> Computed {
         Ok(s) => s,
         Err(e) => return fail(&e),
     };
-    let mut panes = Vec::new();
-    let mut suggestions = Vec::new();
-    let mut flagged = false;
-    if light.lab.is_some() {
-        match crate::plan_with_stocks(source.clone()) {
-            Ok((report, stocks)) => {
-                flagged |= report.flagged;
-                panes.push(sheet("mixing", export::export(&report, Format::Html)));
-                panes.push(sheet("stocks", export::export_stocks(&stocks, Format::Html)));
-                panes.push(sheet(
-                    "glassware",
-                    export::render_html(&report.glassware_page()),
-                ));
-            }
-            Err(e) => return fail(&e),
-        }
-    } else {
-        let why = "This spec lists no [[stock]] and [[device]]: add them (or start from clockprep init) to get the mixing and stock sheets.";
-        panes.push(note("mixing", why));
-        panes.push(note("stocks", why));
-        panes.push(note("glassware", why));
-    }
-    if light.prior.is_some() {
-        match crate::forecast_only(source.clone()) {
-            Ok(f) => {
-                flagged |= f.flagged;
-                panes.push(sheet("forecast", export::export_forecast(&f, Format::Html)));
-            }
-            Err(e) => return fail(&e),
-        }
-        match crate::tune(source.clone()) {
-            Ok(t) => {
-                panes.push(sheet("tune", export::export_tune(&t, SummaryFormat::Html)));
-                let changes = (t.concentration_m - t.current_m).abs() > 1e-9 * t.current_m;
-                if t.fits && changes {
-                    suggestions.push(Suggestion {
-                        kind: "tune",
-                        label: format!(
-                            "Set [timing] concentration = \"{}\"",
-                            t.concentration
-                        ),
-                        toml: String::from_utf8_lossy(&export::export_tune(
-                            &t,
-                            SummaryFormat::Toml,
-                        ))
-                        .into_owned(),
-                    });
-                }
-            }
-            Err(e) => panes.push(refusal("tune", &e, form.as_ref())),
-        }
-        match times {
-            None => panes.push(note("fit", "Upload the pilot (or class) times as CSV with a header and the columns run, time and optionally temperature, one row per trial, to fit the prior rate law.")),
-            Some(t) => match crate::fit(source.clone(), SpecSource::new(t.name.clone(), t.csv.clone()), None) {
-                Ok(f) => {
-                    panes.push(sheet("fit", export::export_fit(&f, SummaryFormat::Html)));
-                    suggestions.push(Suggestion {
-                        kind: "fit",
-                        label: "Replace [reaction] with the fitted rate law".into(),
-                        toml: String::from_utf8_lossy(&export::export_fit(&f, SummaryFormat::Toml)).into_owned(),
-                    });
-                }
-                Err(e) => panes.push(refusal("fit", &e, form.as_ref())),
-            },
-        }
-    } else {
-        let why = "Add a [reaction] table (e.g. preset = \"bromate-iodide\") to forecast the clock times, tune the timing reagent and fit pilot times.";
-        panes.push(note("forecast", why));
-        panes.push(note("tune", why));
-        panes.push(note("fit", why));
-    }
-    if light.design.is_some() {
-        match crate::design(source) {
-            Ok(d) => {
-                panes.push(sheet(
-                    "design",
-                    export::export_design(&d, SummaryFormat::Html),
-                ));
-                suggestions.push(Suggestion {
-                    kind: "design",
-                    label: format!("Replace the [[run]] list with the {} designed runs", d.runs.len()),
-                    toml: String::from_utf8_lossy(&export::export_design(&d, SummaryFormat::Toml))
-                        .into_owned(),
-                });
-            }
-            Err(e) => panes.push(refusal("design", &e, form.as_ref())),
-        }
-    } else {
-        panes.push(note("design", "Add a [design] table (base point, scheme, multipliers) to design a run set and see the precision it gives."));
-    }
-    panes.sort_by_key(|p| PANES.iter().position(|x| *x == p.id));
-    Computed {
+    let (lab, prior, design) = (
+        light.lab.is_some(),
+        light.prior.is_some(),
+        light.design.is_some(),
+    );
+    let f = form.as_ref();
+    let ((bench, forecast), (prior_panes, design_panes)) = rayon::join(
+        || {
+            rayon::join(
+                || bench_part(source.clone(), lab),
+                || forecast_part(source.clone(), prior),
+            )
+        },
+        || {
+            rayon::join(
+                || prior_part(source.clone(), prior, times, f),
+                || design_part(source.clone(), design, f),
+            )
+        },
+    );
+    let parts = match (bench, forecast) {
+        (Err(e), _) | (Ok(_), Err(e)) => return fail(&e),
+        (Ok(b), Ok(fc)) => [b, fc, prior_panes, design_panes],
+    };
+    let mut out = Computed {
         error: None,
-        panes,
-        suggestions,
-        flagged,
+        panes: Vec::new(),
+        suggestions: Vec::new(),
+        flagged: false,
+    };
+    for p in parts {
+        out.panes.extend(p.panes);
+        out.suggestions.extend(p.suggestions);
+        out.flagged |= p.flagged;
     }
+    out.panes
+        .sort_by_key(|p| PANES.iter().position(|x| *x == p.id));
+    out
 }
 
 /// The tables a suggestion replaces whole rather than key by key.

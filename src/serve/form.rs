@@ -22,7 +22,10 @@ pub type Path = Vec<Seg>;
 #[derive(Debug, Clone, PartialEq)]
 pub enum Shown {
     /// A quantity string such as "50.0 mL": the number and the unit as typed.
-    Quantity { number: String, unit: String },
+    Quantity {
+        number: String,
+        unit: String,
+    },
     /// Any other string.
     Text(String),
     /// An integer or a float, as written.
@@ -149,9 +152,9 @@ fn value_fields(src: &str, path: Path, label: &str, v: &Value, out: &mut Vec<Fie
         Value::Array(a)
             if !a.is_empty()
                 && a.len() <= 4
-                && a.iter().all(|x| {
-                    matches!(x, Value::String(s) if split_quantity(s.value()).is_some())
-                }) =>
+                && a.iter().all(
+                    |x| matches!(x, Value::String(s) if split_quantity(s.value()).is_some()),
+                ) =>
         {
             let first = out.len();
             for (i, x) in a.iter().enumerate() {
@@ -288,15 +291,11 @@ impl Form {
     /// located message belongs beside.
     pub fn locate(&self, at: Range<usize>) -> Option<Path> {
         let inside = |s: &Range<usize>| s.start <= at.start && at.start < s.end.max(s.start + 1);
-        let fields = self
-            .groups
-            .iter()
-            .flat_map(|g| g.fields.iter())
-            .chain(
-                self.grids
-                    .iter()
-                    .flat_map(|g| g.rows.iter().flat_map(|r| r.cells.iter().flatten())),
-            );
+        let fields = self.groups.iter().flat_map(|g| g.fields.iter()).chain(
+            self.grids
+                .iter()
+                .flat_map(|g| g.rows.iter().flat_map(|r| r.cells.iter().flatten())),
+        );
         if let Some(f) = fields
             .filter(|f| inside(&f.span))
             .min_by_key(|f| f.span.len())
@@ -352,13 +351,18 @@ fn err(path: &Path, message: impl Into<String>) -> EditError {
 fn typed(text: &str, like: Option<&Value>, path: &Path) -> Result<Value, EditError> {
     let text = text.trim();
     match like {
-        Some(Value::Integer(_)) | Some(Value::Float(_)) | Some(Value::Boolean(_)) => {
-            Ok(text.parse::<Value>().ok().filter(is_plain).unwrap_or_else(|| text.into()))
-        }
+        Some(Value::Integer(_)) | Some(Value::Float(_)) | Some(Value::Boolean(_)) => Ok(text
+            .parse::<Value>()
+            .ok()
+            .filter(is_plain)
+            .unwrap_or_else(|| text.into())),
         Some(Value::Array(_)) | Some(Value::InlineTable(_)) => text.parse::<Value>().map_err(|e| {
             err(
                 path,
-                format!("not a TOML value: {} (write it as in the TOML text, e.g. [\"a\", \"b\"])", e.to_string().trim()),
+                format!(
+                    "not a TOML value: {} (write it as in the TOML text, e.g. [\"a\", \"b\"])",
+                    e.to_string().trim()
+                ),
             )
         }),
         _ => Ok(text.into()),
@@ -380,8 +384,7 @@ pub fn apply(text: &str, edits: &[Edit]) -> Result<String, EditError> {
                 };
                 let mut row = last;
                 row.set_position(None);
-                if let Some(name) = row.get("name").and_then(|n| n.as_str()).map(str::to_string)
-                {
+                if let Some(name) = row.get("name").and_then(|n| n.as_str()).map(str::to_string) {
                     let taken: Vec<String> = a
                         .iter()
                         .filter_map(|t| t.get("name").and_then(|n| n.as_str()).map(String::from))
@@ -522,7 +525,8 @@ fn set(doc: &mut DocumentMut, path: &Path, text: &str) -> Result<(), EditError> 
                     }
                     return Ok(());
                 }
-                t.get_mut(k).ok_or_else(|| err(path, "not a setting of this spec"))?
+                t.get_mut(k)
+                    .ok_or_else(|| err(path, "not a setting of this spec"))?
             }
             (Seg::Index(n), Value::Array(a)) => {
                 if last {
@@ -552,7 +556,10 @@ pub fn apply_fragment(text: &str, fragment: &str, whole: &[&str]) -> Result<Stri
         .parse()
         .map_err(|e: toml_edit::TomlError| err(&Vec::new(), e.message().to_string()))?;
     let frag: DocumentMut = fragment.parse().map_err(|e: toml_edit::TomlError| {
-        err(&Vec::new(), format!("the suggestion is not TOML: {}", e.message()))
+        err(
+            &Vec::new(),
+            format!("the suggestion is not TOML: {}", e.message()),
+        )
     })?;
     for (k, item) in frag.iter() {
         let mut item = item.clone();
@@ -707,7 +714,10 @@ targets = { "I-" = "4.00 mM", "H+" = "20.0 mM" }
             }],
         )
         .unwrap();
-        assert!(out.contains("total_volume = \"25.0 mL\"      # every run"), "{out}");
+        assert!(
+            out.contains("total_volume = \"25.0 mL\"      # every run"),
+            "{out}"
+        );
     }
 
     #[test]
@@ -776,7 +786,10 @@ targets = { "I-" = "4.00 mM", "H+" = "20.0 mM" }
     fn a_fragment_replaces_rows_and_sets_table_keys() {
         let frag = "[timing]\nconcentration = \"0.178 mM\"\n\n[[run]]\nname = \"base\"\ntargets = { \"I-\" = \"2.00 mM\" }\n";
         let out = apply_fragment(SPEC, frag, &[]).unwrap();
-        assert!(out.contains("concentration = \"0.178 mM\"\nwindow"), "{out}");
+        assert!(
+            out.contains("concentration = \"0.178 mM\"\nwindow"),
+            "{out}"
+        );
         assert!(out.contains("name = \"base\"") && !out.contains("reference"));
         assert!(out.starts_with("# a comment at the top\n[plan]"));
     }

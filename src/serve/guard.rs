@@ -56,7 +56,11 @@ pub fn token() -> String {
 
 /// Compare two tokens in time independent of where they differ.
 pub fn same_token(a: &str, b: &str) -> bool {
-    a.len() == b.len() && a.bytes().zip(b.bytes()).fold(0u8, |acc, (x, y)| acc | (x ^ y)) == 0
+    a.len() == b.len()
+        && a.bytes()
+            .zip(b.bytes())
+            .fold(0u8, |acc, (x, y)| acc | (x ^ y))
+            == 0
 }
 
 #[cfg(test)]
@@ -69,7 +73,12 @@ mod tests {
             port: 7413,
             loopback_only: true,
         };
-        for ok in ["127.0.0.1:7413", "localhost:7413", "[::1]:7413", "LOCALHOST:7413"] {
+        for ok in [
+            "127.0.0.1:7413",
+            "localhost:7413",
+            "[::1]:7413",
+            "LOCALHOST:7413",
+        ] {
             assert!(h.allows(ok), "{ok}");
         }
         for bad in [

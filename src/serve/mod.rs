@@ -220,7 +220,11 @@ async fn index(State(app): State<Arc<App>>) -> Response {
 }
 
 async fn css() -> Response {
-    ([(header::CONTENT_TYPE, "text/css; charset=utf-8")], page::CSS).into_response()
+    (
+        [(header::CONTENT_TYPE, "text/css; charset=utf-8")],
+        page::CSS,
+    )
+        .into_response()
 }
 
 async fn js() -> Response {

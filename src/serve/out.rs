@@ -250,7 +250,10 @@ mod tests {
 
     #[test]
     fn downloads_are_named_after_the_spec() {
-        assert_eq!(file_stem("plans/maple-hollow-bromate.toml"), "maple-hollow-bromate");
+        assert_eq!(
+            file_stem("plans/maple-hollow-bromate.toml"),
+            "maple-hollow-bromate"
+        );
         assert_eq!(file_stem("\"; evil"), "evil");
         assert_eq!(file_stem(""), "clockprep");
     }

@@ -89,7 +89,9 @@ impl SpecFile {
             }
             Err(e) => Saved {
                 saved: false,
-                message: format!("cannot write {shown} ({e}); the file is as it was. Download the spec instead."),
+                message: format!(
+                    "cannot write {shown} ({e}); the file is as it was. Download the spec instead."
+                ),
                 download: true,
             },
         }

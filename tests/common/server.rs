@@ -139,7 +139,10 @@ impl Server {
     /// The random token the page carries for Save.
     pub fn token(&self) -> String {
         let page = self.get("/").text();
-        let at = page.find("name=\"clockprep-token\" content=\"").expect("token meta") + 32;
+        let at = page
+            .find("name=\"clockprep-token\" content=\"")
+            .expect("token meta")
+            + 32;
         page[at..at + 32].to_string()
     }
 
@@ -212,7 +215,8 @@ fn parse(all: &[u8]) -> Answer {
 fn dechunk(mut b: &[u8]) -> Vec<u8> {
     let mut out = Vec::new();
     while let Some(end) = b.windows(2).position(|w| w == b"\r\n") {
-        let size = usize::from_str_radix(String::from_utf8_lossy(&b[..end]).trim(), 16).unwrap_or(0);
+        let size =
+            usize::from_str_radix(String::from_utf8_lossy(&b[..end]).trim(), 16).unwrap_or(0);
         if size == 0 {
             break;
         }
