@@ -95,7 +95,9 @@ fn tunable() -> String {
 }
 
 fn open_on(text: &str) -> Session {
-    let (dir, spec) = spec_file(text);
+    let (dir, _) = spec_file(text);
+    let spec = dir.path().join("maple-hollow-bromate.toml");
+    std::fs::write(&spec, text).unwrap();
     let server = Server::start(Some(&spec));
     let profile = tempfile::tempdir().unwrap();
     let options = LaunchOptions::default_builder()

@@ -81,7 +81,6 @@ pub fn shell(name: &str, text: &str, token: &str, can_save: bool) -> String {
                                         @if id == "fit" {
                                             p.upload {
                                                 label { "Pilot times (CSV): " input #times type="file" accept=".csv,text/csv"; }
-                                                span #times-name {}
                                             }
                                         }
                                         div.note {}

@@ -69,9 +69,15 @@
     if (inputs[saved.n]) inputs[saved.n].focus();
   }
 
+  var shown = {};
+  var formShown = null;
   function setPane(pane) {
     var box = panes.querySelector('[data-pane="' + pane.id + '"]');
     if (!box) return;
+    // A pane whose sheet is unchanged is left as it is (no re-layout).
+    var key = (pane.note || "") + "\u0000" + (pane.html || "");
+    if (shown[pane.id] === key) return;
+    shown[pane.id] = key;
     box.querySelector(".note").textContent = pane.note || "";
     var host = box.querySelector(".sheet");
     var root = host.shadowRoot || host.attachShadow({ mode: "open" });
@@ -136,7 +142,8 @@
   function show(reply, t0) {
     text = reply.text;
     if (document.activeElement !== textarea && textarea.value !== text) textarea.value = text;
-    if (reply.form_html !== null) {
+    if (reply.form_html !== null && reply.form_html !== formShown) {
+      formShown = reply.form_html;
       var saved = focusedPath();
       formBox.innerHTML = reply.form_html;
       refocus(saved);
@@ -242,7 +249,6 @@
   });
   function setTimes(name, csv) {
     times = { name: name, csv: csv };
-    document.getElementById("times-name").textContent = name;
     return compute();
   }
   api.setTimes = setTimes;
